@@ -720,11 +720,14 @@ func (x *ProfileReading) GetLoading() float64 {
 
 // TrainingWitness is a witness the model was trained on, with its group shares (normalised H).
 type TrainingWitness struct {
-	state         protoimpl.MessageState `protogen:"open.v1"`
-	Witness       string                 `protobuf:"bytes,1,opt,name=witness,proto3" json:"witness,omitempty"`
-	Shares        []float64              `protobuf:"fixed64,2,rep,packed,name=shares,proto3" json:"shares,omitempty"`
-	BestGroup     string                 `protobuf:"bytes,3,opt,name=best_group,json=bestGroup,proto3" json:"best_group,omitempty"`
-	ExtantUnits   int32                  `protobuf:"varint,4,opt,name=extant_units,json=extantUnits,proto3" json:"extant_units,omitempty"`
+	state       protoimpl.MessageState `protogen:"open.v1"`
+	Witness     string                 `protobuf:"bytes,1,opt,name=witness,proto3" json:"witness,omitempty"`
+	Shares      []float64              `protobuf:"fixed64,2,rep,packed,name=shares,proto3" json:"shares,omitempty"`
+	BestGroup   string                 `protobuf:"bytes,3,opt,name=best_group,json=bestGroup,proto3" json:"best_group,omitempty"`
+	ExtantUnits int32                  `protobuf:"varint,4,opt,name=extant_units,json=extantUnits,proto3" json:"extant_units,omitempty"`
+	// cells[u] is the witness's reading index at unit u, or -1 for a lacuna: kept so that a
+	// placement can name the nearest training witnesses by agreement.
+	Cells         []int32 `protobuf:"zigzag32,5,rep,packed,name=cells,proto3" json:"cells,omitempty"`
 	unknownFields protoimpl.UnknownFields
 	sizeCache     protoimpl.SizeCache
 }
@@ -785,6 +788,13 @@ func (x *TrainingWitness) GetExtantUnits() int32 {
 		return x.ExtantUnits
 	}
 	return 0
+}
+
+func (x *TrainingWitness) GetCells() []int32 {
+	if x != nil {
+		return x.Cells
+	}
+	return nil
 }
 
 type SetAsideReport struct {
@@ -1252,13 +1262,14 @@ const file_strayleaf_v1_model_proto_rawDesc = "" +
 	"\x04unit\x18\x01 \x01(\tR\x04unit\x12\x18\n" +
 	"\areading\x18\x02 \x01(\tR\areading\x12$\n" +
 	"\rconcentration\x18\x03 \x01(\x01R\rconcentration\x12\x18\n" +
-	"\aloading\x18\x04 \x01(\x01R\aloading\"\x89\x01\n" +
+	"\aloading\x18\x04 \x01(\x01R\aloading\"\xa3\x01\n" +
 	"\x0fTrainingWitness\x12\x18\n" +
 	"\awitness\x18\x01 \x01(\tR\awitness\x12\x1a\n" +
 	"\x06shares\x18\x02 \x03(\x01B\x02\x10\x01R\x06shares\x12\x1d\n" +
 	"\n" +
 	"best_group\x18\x03 \x01(\tR\tbestGroup\x12!\n" +
-	"\fextant_units\x18\x04 \x01(\x05R\vextantUnits\"\x91\x02\n" +
+	"\fextant_units\x18\x04 \x01(\x05R\vextantUnits\x12\x18\n" +
+	"\x05cells\x18\x05 \x03(\x11B\x02\x10\x01R\x05cells\"\x91\x02\n" +
 	"\x0eSetAsideReport\x12N\n" +
 	"\x11singular_readings\x18\x01 \x03(\v2!.strayleaf.v1.SingularReadingNoteR\x10singularReadings\x12T\n" +
 	"\x13uninformative_units\x18\x02 \x03(\v2#.strayleaf.v1.UninformativeUnitNoteR\x12uninformativeUnits\x12Y\n" +
