@@ -237,16 +237,17 @@ func (b *Builder) Add(siglum, id, label, section string) error {
 		return err
 	}
 	w := b.AddWitness(siglum)
-	r := b.AddReading(u, label)
 	row := b.rows[w]
 	for len(row) <= u {
 		row = append(row, Lacuna)
 	}
 	b.rows[w] = row
-	if prev := row[u]; prev != Lacuna && int(prev) != r {
+	// Check for a conflict before the label is declared, so that a rejected cell leaves no
+	// reading behind at the unit.
+	if prev := row[u]; prev != Lacuna && int(prev) != b.units[u].ReadingIndex(label) {
 		return &ConflictError{Witness: siglum, Unit: id, First: b.units[u].Readings[prev], Second: label}
 	}
-	row[u] = int32(r)
+	row[u] = int32(b.AddReading(u, label))
 	return nil
 }
 
