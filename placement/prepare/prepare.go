@@ -63,22 +63,23 @@ type Row struct {
 
 // SingularReading is a reading set aside for too little support.
 type SingularReading struct {
-	Unit, Reading string
-	Witnesses     []string // the witnesses that have it
+	Unit      string   `json:"unit"`
+	Reading   string   `json:"reading"`
+	Witnesses []string `json:"witnesses"` // the witnesses that have it
 }
 
 // UninformativeUnit is a unit set aside because fewer than two readings were left at it.
 type UninformativeUnit struct {
-	Unit   string
-	Kept   int // readings left after singular readings were set aside (0 or 1)
-	Reason string
+	Unit   string `json:"unit"`
+	Kept   int    `json:"kept_readings"` // readings left after singular readings were set aside (0 or 1)
+	Reason string `json:"reason"`
 }
 
 // FragmentaryWitness is a witness set aside from training for low coverage.
 type FragmentaryWitness struct {
-	Witness  string
-	Extant   int     // kept units the witness is extant at
-	Coverage float64 // Extant / number of kept units
+	Witness  string  `json:"witness"`
+	Extant   int     `json:"extant_units"` // kept units the witness is extant at
+	Coverage float64 `json:"coverage"`     // Extant / number of kept units
 }
 
 // Report says what preparation set aside and why.
