@@ -59,36 +59,18 @@ func TestSameSeedSameBytes(t *testing.T) {
 	}
 }
 
-// agreement is the share of units at which two witnesses have the same reading, among the units
-// at which both are extant (common practice). ok is false when they share no extant unit.
-func agreement(a, b []int32, units []int) (share float64, ok bool) {
-	both, same := 0, 0
-	for _, u := range units {
-		if a[u] == collation.Lacuna || b[u] == collation.Lacuna {
-			continue
-		}
-		both++
-		if a[u] == b[u] {
-			same++
-		}
-	}
-	if both == 0 {
-		return 0, false
-	}
-	return float64(same) / float64(both), true
-}
-
 // meanAgreement is witness w's mean agreement with the pure witnesses of group g (w itself left
-// out), over the given units.
-func meanAgreement(tr *Tradition, w, g int, units []int) float64 {
+// out) over units [lo, hi), agreement being the share of units with the same reading among the
+// units at which both are extant (common practice; collation.Agreement).
+func meanAgreement(tr *Tradition, w, g, lo, hi int) float64 {
 	c := tr.Collation
 	sum, n := 0.0, 0
 	for v, wt := range tr.Truth.Witnesses {
 		if v == w || wt.Group != g || wt.Kind != KindPure {
 			continue
 		}
-		if a, ok := agreement(c.Row(w), c.Row(v), units); ok {
-			sum += a
+		if agree, compared := collation.Agreement(c.Row(w)[lo:hi], c.Row(v)[lo:hi]); compared > 0 {
+			sum += float64(agree) / float64(compared)
 			n++
 		}
 	}
@@ -98,23 +80,15 @@ func meanAgreement(tr *Tradition, w, g int, units []int) float64 {
 	return sum / float64(n)
 }
 
-func allUnits(n int) []int {
-	u := make([]int, n)
-	for i := range u {
-		u[i] = i
-	}
-	return u
-}
-
 func TestPureWitnessesAgreeMostWithTheirOwnGroup(t *testing.T) {
 	for seed := uint64(1); seed <= 3; seed++ {
 		tr := mustSimulate(t, smallConfig(seed))
-		units := allUnits(tr.Collation.NumUnits())
+		nu := tr.Collation.NumUnits()
 		for w, wt := range tr.Truth.Witnesses {
 			if wt.Kind != KindPure {
 				continue
 			}
-			own := meanAgreement(tr, w, wt.Group, units)
+			own := meanAgreement(tr, w, wt.Group, 0, nu)
 			if own < 0.85 {
 				t.Errorf("seed %d: pure witness %s agrees %.3f with its own group; expected about 1 - 2*scribal_rate", seed, wt.Siglum, own)
 			}
@@ -122,7 +96,7 @@ func TestPureWitnessesAgreeMostWithTheirOwnGroup(t *testing.T) {
 				if g == wt.Group {
 					continue
 				}
-				if other := meanAgreement(tr, w, g, units); !(own > other) {
+				if other := meanAgreement(tr, w, g, 0, nu); !(own > other) {
 					t.Errorf("seed %d: pure witness %s agrees %.3f with its own group %d and %.3f with group %d", seed, wt.Siglum, own, wt.Group, other, g)
 				}
 			}
@@ -147,9 +121,8 @@ func TestBlockMixedWitnessesFollowTheirExemplarsSectionBySection(t *testing.T) {
 				(sw.Unit > 0 && tr.Collation.Unit(sw.Unit-1).Section == sw.Section) {
 				t.Fatalf("seed %d: switch %+v of %s does not fall at the start of its section", seed, sw, wt.Siglum)
 			}
-			early, late := allUnits(sw.Unit), allUnits(nu)[sw.Unit:]
-			a1, b1 := meanAgreement(tr, w, wt.Group, early), meanAgreement(tr, w, sw.To, early)
-			a2, b2 := meanAgreement(tr, w, wt.Group, late), meanAgreement(tr, w, sw.To, late)
+			a1, b1 := meanAgreement(tr, w, wt.Group, 0, sw.Unit), meanAgreement(tr, w, sw.To, 0, sw.Unit)
+			a2, b2 := meanAgreement(tr, w, wt.Group, sw.Unit, nu), meanAgreement(tr, w, sw.To, sw.Unit, nu)
 			if !(a1 > b1 && b2 > a2) {
 				t.Errorf("seed %d: block-mixed %s (group %d, then %d from section %s): before the switch %.3f vs %.3f, after %.3f vs %.3f",
 					seed, wt.Siglum, wt.Group, sw.To, sw.Section, a1, b1, a2, b2)
@@ -170,7 +143,7 @@ func TestMixedWitnessesDrawTheirShare(t *testing.T) {
 	checked := 0
 	for seed := uint64(1); seed <= 3; seed++ {
 		tr := mustSimulate(t, smallConfig(seed))
-		units := allUnits(tr.Collation.NumUnits())
+		nu := tr.Collation.NumUnits()
 		for w, wt := range tr.Truth.Witnesses {
 			if wt.Kind != KindMixed {
 				continue
@@ -195,11 +168,11 @@ func TestMixedWitnessesDrawTheirShare(t *testing.T) {
 				t.Errorf("seed %d: mixed %s drew %v of %v units from group %d; expected about %.1f", seed, wt.Siglum, got, n, second, n*s)
 			}
 			// It agrees with the second group more than its own group's pure members do.
-			mine := meanAgreement(tr, w, second, units)
+			mine := meanAgreement(tr, w, second, 0, nu)
 			sum, k := 0.0, 0
 			for v, vt := range tr.Truth.Witnesses {
 				if vt.Kind == KindPure && vt.Group == wt.Group {
-					sum += meanAgreement(tr, v, second, units)
+					sum += meanAgreement(tr, v, second, 0, nu)
 					k++
 				}
 			}
