@@ -154,11 +154,7 @@ func Prepare(c *collation.Collation, opt Options) (*Prepared, error) {
 		}
 		if kept := len(p.Rows) - start; kept < 2 {
 			p.Rows = p.Rows[:start]
-			reason := "no reading is shared by two or more witnesses"
-			if kept == 1 {
-				reason = "only one reading is shared by two or more witnesses"
-			}
-			p.Report.UninformativeUnits = append(p.Report.UninformativeUnits, UninformativeUnit{Unit: unit.ID, Kept: kept, Reason: reason})
+			p.Report.UninformativeUnits = append(p.Report.UninformativeUnits, UninformativeUnit{Unit: unit.ID, Kept: kept, Reason: uninformativeReason(support, kept, opt.MinSupport)})
 			p.UnitRows[u] = [2]int{start, start}
 			continue
 		}
@@ -210,6 +206,30 @@ func Prepare(c *collation.Collation, opt Options) (*Prepared, error) {
 		}
 	}
 	return p, nil
+}
+
+// uninformativeReason says why a unit with kept (0 or 1) readings left is set aside, given the
+// support of each of its readings.
+func uninformativeReason(support []int, kept, minSupport int) string {
+	extant, attested := 0, 0
+	for _, s := range support {
+		extant += s
+		if s > 0 {
+			attested++
+		}
+	}
+	switch {
+	case extant == 0:
+		return "no witness is extant at the unit"
+	case extant == 1:
+		return "only one witness is extant at the unit"
+	case attested == 1:
+		return "every extant witness has the same reading"
+	case kept == 0:
+		return fmt.Sprintf("no reading is attested by %d or more witnesses", minSupport)
+	default:
+		return fmt.Sprintf("only one reading is attested by %d or more witnesses", minSupport)
+	}
 }
 
 func holders(c *collation.Collation, u, r int) []string {
