@@ -130,8 +130,8 @@ func Rebuild(c *collation.Collation, sigla []string, rows [][]int32) (*collation
 // if a siglum in held is not a witness of t.
 func (t *Tradition) Split(held []string) (kept, out *Tradition, err error) {
 	c := t.Collation
-	if len(t.Truth.Witnesses) != c.NumWitnesses() {
-		return nil, nil, fmt.Errorf("splitting tradition: the truth has %d witnesses, the collation %d", len(t.Truth.Witnesses), c.NumWitnesses())
+	if len(t.Truth.Witnesses) != c.NumWitnesses() || len(t.Sources) != c.NumWitnesses() {
+		return nil, nil, fmt.Errorf("splitting tradition: the truth has %d witnesses and %d source rows, the collation %d witnesses", len(t.Truth.Witnesses), len(t.Sources), c.NumWitnesses())
 	}
 	isHeld := make(map[string]bool, len(held))
 	for _, s := range held {
@@ -143,6 +143,7 @@ func (t *Tradition) Split(held []string) (kept, out *Tradition, err error) {
 	part := func(want bool) (*Tradition, error) {
 		var sigla []string
 		var rows [][]int32
+		var sources [][]int
 		truth := t.Truth
 		truth.Groups = append([]GroupTruth(nil), t.Truth.Groups...)
 		truth.Witnesses = nil
@@ -152,6 +153,7 @@ func (t *Tradition) Split(held []string) (kept, out *Tradition, err error) {
 			}
 			sigla = append(sigla, s)
 			rows = append(rows, c.Row(w))
+			sources = append(sources, t.Sources[w])
 			truth.Witnesses = append(truth.Witnesses, t.Truth.Witnesses[w])
 		}
 		if want {
@@ -162,7 +164,7 @@ func (t *Tradition) Split(held []string) (kept, out *Tradition, err error) {
 		if err != nil {
 			return nil, fmt.Errorf("splitting tradition: %w", err)
 		}
-		return &Tradition{Collation: col, Truth: truth}, nil
+		return &Tradition{Collation: col, Truth: truth, Sources: sources}, nil
 	}
 	if kept, err = part(false); err != nil {
 		return nil, nil, err
@@ -171,4 +173,37 @@ func (t *Tradition) Split(held []string) (kept, out *Tradition, err error) {
 		return nil, nil, err
 	}
 	return kept, out, nil
+}
+
+// FragmentTruth returns the truth of a fragment cut from witness w of t: row is what survives
+// (reading indexes of t's collation, as CutContiguous or CutScattered give them) and form its
+// Form. The fragment keeps the witness's group, shares and any switch; its kind is
+// KindFragmentary, Drawn and Extant are counted over the surviving units, and for a leaf or
+// leaves the surviving runs are recorded.
+func (t *Tradition) FragmentTruth(w int, siglum string, row []int32, form string) (WitnessTruth, error) {
+	if w < 0 || w >= len(t.Truth.Witnesses) || w >= len(t.Sources) {
+		return WitnessTruth{}, fmt.Errorf("fragment %s: no witness %d", siglum, w)
+	}
+	src := t.Sources[w]
+	if len(row) != len(src) {
+		return WitnessTruth{}, fmt.Errorf("fragment %s: row has %d units; the collation has %d", siglum, len(row), len(src))
+	}
+	wt := t.Truth.Witnesses[w]
+	wt.Siglum = siglum
+	wt.Kind = KindFragmentary
+	wt.Shares = append([]float64(nil), wt.Shares...)
+	wt.Drawn = make([]int, len(wt.Shares))
+	wt.Extant = 0
+	wt.Lacunae = nil
+	for u, r := range row {
+		if r != collation.Lacuna {
+			wt.Drawn[src[u]]++
+			wt.Extant++
+		}
+	}
+	wt.Fragment = &Fragment{Form: form}
+	if form != FormScattered {
+		wt.Fragment.Runs = ExtantRuns(row)
+	}
+	return wt, nil
 }

@@ -168,6 +168,31 @@ func TestSplitAndRebuildKeepReadings(t *testing.T) {
 	if whole.Len() != a.Len()+b.Len()-len("witness,unit,reading,section\n") {
 		t.Errorf("split CSVs have %d+%d bytes, whole %d", a.Len(), b.Len(), whole.Len())
 	}
+	// A fragment cut from a mixed witness keeps its shares and counts its draws anew.
+	for w, wt := range tr.Truth.Witnesses {
+		if wt.Kind != KindMixed {
+			continue
+		}
+		row := CutRange(c.Row(w), 20, 40)
+		ft, err := tr.FragmentTruth(w, "F1", row, FormLeaf)
+		if err != nil {
+			t.Fatal(err)
+		}
+		want := make([]int, len(wt.Drawn))
+		for u := 20; u < 60; u++ {
+			if row[u] != L {
+				want[tr.Sources[w][u]]++
+			}
+		}
+		if ft.Kind != KindFragmentary || ft.Siglum != "F1" || !reflect.DeepEqual(ft.Drawn, want) || ft.Extant != extant(row) ||
+			!reflect.DeepEqual(ft.Shares, wt.Shares) || !reflect.DeepEqual(ft.Fragment.Runs, ExtantRuns(row)) {
+			t.Errorf("fragment truth %+v; drawn want %v", ft, want)
+		}
+		if _, err := tr.FragmentTruth(w, "F2", row[:5], FormLeaf); err == nil {
+			t.Error("FragmentTruth accepted a short row")
+		}
+		break
+	}
 	if _, _, err := tr.Split([]string{"nobody"}); err == nil {
 		t.Error("split on an unknown siglum did not fail")
 	}

@@ -289,6 +289,9 @@ func groupSizes(c *Config) []int {
 type Tradition struct {
 	Collation *collation.Collation
 	Truth     Truth
+	// Sources[w][u] is the group whose exemplar witness w copied at unit u (before the copyist's
+	// own changes, and whether or not the witness is extant there).
+	Sources [][]int
 }
 
 // plan is one witness before its row is drawn.
@@ -416,6 +419,7 @@ func Simulate(cfg Config) (*Tradition, error) {
 
 	// The copies.
 	rows := make([][]int32, len(plans))
+	sources := make([][]int, len(plans))
 	singulars := make([]int, nu) // singular readings made so far at each unit
 	truth := Truth{Seed: cfg.Seed, Units: nu, Sections: sectionNames}
 	candidates := make([]int32, 0, ng)
@@ -490,7 +494,7 @@ func Simulate(cfg Config) (*Tradition, error) {
 		default:
 			wt.Shares[p.group] = 1
 		}
-		rows[i] = row
+		rows[i], sources[i] = row, source
 		truth.Witnesses = append(truth.Witnesses, wt)
 	}
 
@@ -555,7 +559,7 @@ func Simulate(cfg Config) (*Tradition, error) {
 		truth.Groups[g] = GroupTruth{Name: groupNames[g], Family: groupFamily[g]}
 	}
 	truth.countMembers()
-	return &Tradition{Collation: b.Build(), Truth: truth}, nil
+	return &Tradition{Collation: b.Build(), Truth: truth, Sources: sources}, nil
 }
 
 // defaultGroupNames names groups by family letter, with a sub-group number in families of more

@@ -216,6 +216,15 @@ func TestTruthHangsTogether(t *testing.T) {
 		if drawn != wt.Extant || wt.Extant != c.Extant(w) {
 			t.Errorf("%s: drawn %v, extant %d, collation extant %d", wt.Siglum, wt.Drawn, wt.Extant, c.Extant(w))
 		}
+		fromSources := make([]int, len(wt.Drawn))
+		for u, g := range tr.Sources[w] {
+			if c.Reading(w, u) != collation.Lacuna {
+				fromSources[g]++
+			}
+		}
+		if !reflect.DeepEqual(fromSources, wt.Drawn) {
+			t.Errorf("%s: drawn %v, sources give %v", wt.Siglum, wt.Drawn, fromSources)
+		}
 		if (wt.Kind == KindPure || wt.Kind == KindFragmentary) && wt.Shares[wt.Group] != 1 {
 			t.Errorf("%s (%s): shares %v", wt.Siglum, wt.Kind, wt.Shares)
 		}
