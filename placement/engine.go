@@ -1,0 +1,374 @@
+// Package placement places a partial witness against a frozen group model: it finds the
+// non-negative group coefficients h that best reproduce the witness's readings at the units it
+// covers, by masked non-negative least squares against the model's profile matrix W.
+//
+// # The problem
+//
+// W is the readings x k profile matrix (non-negative, one column per group); its rows are grouped
+// by variation unit, unit u owning rows [start, end) = unitRows[u] (empty for a unit set aside
+// when the model was learnt). Row r carries a weight w_r, the value a witness's indicator takes
+// on that row when it has that reading (the IDF weight, or 1). A witness covering the units C
+// gives, over the rows of those units, the vector v_C with v_r = w_r for the row of its reading
+// and 0 for the other readings of the unit, and is placed by
+//
+//	h = argmin_{h >= 0} ||W_C h - v_C||^2.
+//
+// The rows of units the witness does not cover (lacunae, or text outside a fragment) are left
+// out altogether: a lacuna is not evidence (common practice). A covered unit whose reading the
+// model does not know (a reading set aside at training, or one never seen) keeps its rows with
+// v = 0 there: the witness disagrees with every group at that unit, and that is evidence. A
+// covered unit with no rows is recognised but contributes nothing.
+//
+// # Cost
+//
+// Everything the requests share is computed once by NewEngine: per-unit Gram blocks
+// G_u = W_u^T W_u (the upper triangle, packed) and their sum, the full Gram G. A placement forms
+// the normal equations
+//
+//	G_C = sum_{u in C} G_u,   c_C = W_C^T v_C = sum_{u in C, reading known} w_r W[r,:]^T,
+//
+// adding the blocks of the covered units, or, when the witness covers more than half of the
+// units that have rows, subtracting from G the blocks of those it lacks; then solves the
+// normal-equations NNLS with nnls.Solver.SolveGram. The cost is O(min(|C|, U - |C|) k^2 + k^3)
+// with U the units that have rows, and nothing is allocated per placement.
+//
+// The residual needs no pass over the rows:
+//
+//	||W_C h - v_C||^2 = h^T G_C h - 2 h^T c_C + v_C^T v_C.
+package placement
+
+import (
+	"errors"
+	"fmt"
+	"math"
+
+	"gonum.org/v1/gonum/mat"
+
+	"strayleaf/placement/nnls"
+)
+
+// ErrNoCoverage is returned by Place for a witness that covers no unit with rows in the model:
+// there is nothing to place it by.
+var ErrNoCoverage = errors.New("placement: the witness covers no unit that the model has readings for")
+
+// Observation is a witness's reading at one unit.
+type Observation struct {
+	// Unit is the index of the variation unit (a collation unit index, 0 <= Unit < NumUnits()).
+	Unit int
+	// Row is the row of W of the witness's reading, within the unit's row range, or -1 for a
+	// reading the model does not know. At a unit with no rows Row must be -1.
+	Row int
+}
+
+// Fit is the result of a placement.
+type Fit struct {
+	// H are the non-negative group coefficients. The slice belongs to the Workspace and is valid
+	// until its next use; copy it to keep it.
+	H []float64
+	// Residual is ||W_C h - v_C||^2, Norm2 is ||v_C||^2 (so Residual <= Norm2, since h = 0 is
+	// feasible, and 1 - Residual/Norm2 is the share of the witness's weighted readings explained).
+	Residual, Norm2 float64
+	// CoveredUnits counts the units observed; UsedUnits those of them that have rows in the model
+	// (the units that entered the fit); UnknownReadings those used units whose reading the model
+	// does not know (Row = -1).
+	CoveredUnits, UsedUnits, UnknownReadings int
+}
+
+// Engine places witnesses against one frozen profile matrix. It is immutable once made and safe
+// for concurrent use by many goroutines, each with its own Workspace.
+type Engine struct {
+	k, nRows int
+	w        []float64 // W row-major, nRows x k
+	weight   []float64
+	unitRows [][2]int
+	block    []int32   // block[u]: index of unit u's Gram block, or -1 for a unit with no rows
+	blocks   []float64 // packed upper triangles, tri entries each
+	full     []float64 // packed upper triangle of the full Gram W^T W
+	rowUnits []int32   // units that have rows, in order
+	tri      int       // k(k+1)/2
+}
+
+// NewEngine checks W, unitRows and rowWeights and precomputes the Gram blocks. W is the
+// readings x k profile matrix (finite, non-negative); unitRows[u] is the half-open row range of
+// unit u (empty, start == end, for a unit with no rows; the non-empty ranges must be disjoint and
+// in increasing order, as prepare.Prepared.UnitRows gives them); rowWeights[r] is the value of
+// the witness's indicator on row r (finite, non-negative). The Engine keeps its own copies.
+func NewEngine(W *mat.Dense, unitRows [][2]int, rowWeights []float64) (*Engine, error) {
+	if W == nil || W.IsEmpty() {
+		return nil, errors.New("placement: the profile matrix W is empty")
+	}
+	nRows, k := W.Dims()
+	if len(rowWeights) != nRows {
+		return nil, fmt.Errorf("placement: %d row weights for a profile matrix of %d rows", len(rowWeights), nRows)
+	}
+	if len(unitRows) == 0 {
+		return nil, errors.New("placement: no units")
+	}
+	e := &Engine{
+		k: k, nRows: nRows, w: make([]float64, nRows*k), weight: make([]float64, nRows),
+		unitRows: make([][2]int, len(unitRows)), block: make([]int32, len(unitRows)), tri: k * (k + 1) / 2,
+	}
+	for r := range nRows {
+		for j := range k {
+			v := W.At(r, j)
+			if !(v >= 0) || math.IsInf(v, 0) {
+				return nil, fmt.Errorf("placement: W[%d][%d] is %v; profiles must be finite and non-negative", r, j, v)
+			}
+			e.w[r*k+j] = v
+		}
+		wt := rowWeights[r]
+		if !(wt >= 0) || math.IsInf(wt, 0) {
+			return nil, fmt.Errorf("placement: weight of row %d is %v; expected a finite non-negative number", r, wt)
+		}
+		e.weight[r] = wt
+	}
+	copy(e.unitRows, unitRows)
+	prevEnd := 0
+	for u, ur := range unitRows {
+		lo, hi := ur[0], ur[1]
+		if lo < 0 || hi < lo || hi > nRows {
+			return nil, fmt.Errorf("placement: unit %d has row range [%d, %d); expected 0 <= start <= end <= %d", u, lo, hi, nRows)
+		}
+		if lo == hi {
+			e.block[u] = -1
+			continue
+		}
+		if lo < prevEnd {
+			return nil, fmt.Errorf("placement: unit %d has row range [%d, %d), overlapping or before the previous unit's rows (which end at %d)", u, lo, hi, prevEnd)
+		}
+		prevEnd = hi
+		if len(e.rowUnits) >= math.MaxInt32 {
+			return nil, errors.New("placement: too many units")
+		}
+		e.block[u] = int32(len(e.rowUnits))
+		e.rowUnits = append(e.rowUnits, int32(u))
+	}
+	if len(e.rowUnits) == 0 {
+		return nil, errors.New("placement: no unit has rows")
+	}
+	e.blocks = make([]float64, len(e.rowUnits)*e.tri)
+	e.full = make([]float64, e.tri)
+	for b, u := range e.rowUnits {
+		blk := e.blocks[b*e.tri : (b+1)*e.tri]
+		for r := unitRows[u][0]; r < unitRows[u][1]; r++ {
+			row := e.w[r*k : r*k+k]
+			p := 0
+			for i := range k {
+				ri := row[i]
+				for j := i; j < k; j++ {
+					blk[p] += ri * row[j]
+					p++
+				}
+			}
+		}
+		addTo(e.full, blk)
+	}
+	return e, nil
+}
+
+// K returns the number of groups (columns of W).
+func (e *Engine) K() int { return e.k }
+
+// NumUnits returns the number of units (len(unitRows)).
+func (e *Engine) NumUnits() int { return len(e.unitRows) }
+
+// NumRows returns the number of rows of W.
+func (e *Engine) NumRows() int { return e.nRows }
+
+// UnitRows returns the row range [start, end) of unit u.
+func (e *Engine) UnitRows(u int) (start, end int) { return e.unitRows[u][0], e.unitRows[u][1] }
+
+// Workspace is the scratch memory of placements: one per goroutine, reused across calls.
+type Workspace struct {
+	e      *Engine
+	mark   []uint32 // mark[u] == gen: unit u is covered by the current witness
+	gen    uint32
+	packed []float64
+	g, c   []float64 // the last placement's normal equations: G_C (k x k) and c_C
+	h      []float64
+	vv     float64
+	solver *nnls.Solver
+	valid  bool
+}
+
+// NewWorkspace returns a Workspace for placements with e.
+func (e *Engine) NewWorkspace() *Workspace {
+	return &Workspace{
+		e: e, mark: make([]uint32, len(e.unitRows)), packed: make([]float64, e.tri),
+		g: make([]float64, e.k*e.k), c: make([]float64, e.k), h: make([]float64, e.k),
+		solver: nnls.NewSolver(e.k),
+	}
+}
+
+// Place fits the witness given by obs (one Observation per covered unit, in any order) and
+// returns its group coefficients. It fails for a unit out of range, a unit given twice, a Row
+// outside its unit's range, a Workspace of another Engine, and, wrapping ErrNoCoverage, a witness
+// that covers no unit with rows. A witness all of whose readings are unknown to the model is
+// placed at h = 0 with Norm2 = 0.
+func (e *Engine) Place(obs []Observation, ws *Workspace) (Fit, error) {
+	if ws == nil || ws.e != e {
+		return Fit{}, errors.New("placement: the workspace was not made by this engine")
+	}
+	ws.valid = false
+	ws.gen++
+	if ws.gen == 0 { // wrapped: old marks could alias the new generation
+		clear(ws.mark)
+		ws.gen = 1
+	}
+	gen := ws.gen
+	used, unknown := 0, 0
+	for i, o := range obs {
+		if o.Unit < 0 || o.Unit >= len(e.unitRows) {
+			return Fit{}, fmt.Errorf("placement: observation %d: unit %d is out of range [0, %d)", i, o.Unit, len(e.unitRows))
+		}
+		if ws.mark[o.Unit] == gen {
+			return Fit{}, fmt.Errorf("placement: observation %d: unit %d is given more than once", i, o.Unit)
+		}
+		ws.mark[o.Unit] = gen
+		lo, hi := e.unitRows[o.Unit][0], e.unitRows[o.Unit][1]
+		if o.Row != -1 && (o.Row < lo || o.Row >= hi) {
+			return Fit{}, fmt.Errorf("placement: observation %d: row %d is not a reading of unit %d (rows [%d, %d), or -1 for an unknown reading)", i, o.Row, o.Unit, lo, hi)
+		}
+		if hi > lo {
+			used++
+			if o.Row < 0 {
+				unknown++
+			}
+		}
+	}
+	if used == 0 {
+		return Fit{}, fmt.Errorf("%w (%d units observed, none with readings in the model)", ErrNoCoverage, len(obs))
+	}
+
+	// G_C, packed, by adding the covered blocks or subtracting the missing ones.
+	k, tri := e.k, e.tri
+	G := ws.packed
+	missing := len(e.rowUnits) - used
+	if used <= missing {
+		clear(G)
+		for _, o := range obs {
+			if b := e.block[o.Unit]; b >= 0 {
+				addTo(G, e.blocks[int(b)*tri:int(b+1)*tri])
+			}
+		}
+	} else {
+		copy(G, e.full)
+		for b, u := range e.rowUnits {
+			if ws.mark[u] != gen {
+				subFrom(G, e.blocks[b*tri:(b+1)*tri])
+			}
+		}
+	}
+
+	// c_C and v_C^T v_C.
+	c := ws.c
+	clear(c)
+	vv := 0.0
+	for _, o := range obs {
+		if o.Row < 0 {
+			continue
+		}
+		v := e.weight[o.Row]
+		axpy(c, v, e.w[o.Row*k:o.Row*k+k])
+		vv += v * v
+	}
+
+	// Unpack G_C to a full symmetric matrix. After subtraction a column whose covered entries
+	// are all zero keeps a rounding residue of the size of (missing+1) * eps * G_jj: set such a
+	// column to exactly zero, so that it is neither used nor mistaken for an indefinite G.
+	g := ws.g
+	p := 0
+	for i := range k {
+		for j := i; j < k; j++ {
+			g[i*k+j] = G[p]
+			g[j*k+i] = G[p]
+			p++
+		}
+	}
+	if used > missing {
+		for j := range k {
+			d := g[j*k+j]
+			full := e.full[diagIndex(j, k)]
+			if d <= float64(missing+1)*8*epsilon*full {
+				for i := range k {
+					g[i*k+j] = 0
+					g[j*k+i] = 0
+				}
+			}
+		}
+	}
+
+	if err := ws.solver.SolveGram(g, c, ws.h); err != nil {
+		return Fit{}, fmt.Errorf("placement: solving for the group coefficients: %w", err)
+	}
+	ws.vv = vv
+	ws.valid = true
+	res := math.Max(0, nnls.Objective(g, c, vv, ws.h))
+	return Fit{
+		H: ws.h, Residual: res, Norm2: vv,
+		CoveredUnits: len(obs), UsedUnits: used, UnknownReadings: unknown,
+	}, nil
+}
+
+// ResidualAt returns ||W_C h - v_C||^2 for any h of length K(), for the witness of the last
+// successful Place with ws, by h^T G_C h - 2 h^T c_C + v_C^T v_C (O(k^2), clamped at 0).
+func (ws *Workspace) ResidualAt(h []float64) (float64, error) {
+	if !ws.valid {
+		return 0, errors.New("placement: no placement to evaluate against (Place has not succeeded with this workspace)")
+	}
+	if len(h) != ws.e.k {
+		return 0, fmt.Errorf("placement: h has length %d; the model has %d groups", len(h), ws.e.k)
+	}
+	return math.Max(0, nnls.Objective(ws.g, ws.c, ws.vv, h)), nil
+}
+
+// Gram returns G_C = W_C^T W_C of the last successful placement (k x k, row-major), and Cross
+// returns c_C = W_C^T v_C. Both belong to the Workspace: read them, do not keep or change them.
+func (ws *Workspace) Gram() []float64 { return ws.g }
+
+// Cross returns c_C = W_C^T v_C of the last successful placement (see Gram).
+func (ws *Workspace) Cross() []float64 { return ws.c }
+
+const epsilon = 0x1p-52
+
+// diagIndex returns the index of entry (j, j) in a packed upper triangle of order k, stored
+// row by row: row i holds entries (i, i..k-1) and starts at i*k - i*(i-1)/2.
+func diagIndex(j, k int) int { return j*k - j*(j-1)/2 }
+
+// addTo sets dst += src; subFrom sets dst -= src; axpy sets dst += a*x (equal lengths).
+func addTo(dst, src []float64) {
+	src = src[:len(dst)]
+	i := 0
+	for ; i+4 <= len(dst); i += 4 {
+		d, s := dst[i:i+4:i+4], src[i:i+4:i+4]
+		d[0] += s[0]
+		d[1] += s[1]
+		d[2] += s[2]
+		d[3] += s[3]
+	}
+	for ; i < len(dst); i++ {
+		dst[i] += src[i]
+	}
+}
+
+func subFrom(dst, src []float64) {
+	src = src[:len(dst)]
+	i := 0
+	for ; i+4 <= len(dst); i += 4 {
+		d, s := dst[i:i+4:i+4], src[i:i+4:i+4]
+		d[0] -= s[0]
+		d[1] -= s[1]
+		d[2] -= s[2]
+		d[3] -= s[3]
+	}
+	for ; i < len(dst); i++ {
+		dst[i] -= src[i]
+	}
+}
+
+func axpy(dst []float64, a float64, x []float64) {
+	x = x[:len(dst)]
+	for i := range dst {
+		dst[i] += a * x[i]
+	}
+}
