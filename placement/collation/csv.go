@@ -13,27 +13,6 @@ import (
 	"unicode/utf8"
 )
 
-// The long CSV form of a collation
-//
-// The first line is a header naming the columns, in any order: witness, unit and reading are
-// required, section is optional. Column names are matched without regard to case or surrounding
-// white space. Any other column is rejected (with the list of the columns that are understood),
-// so that nothing in a file is dropped without the user knowing.
-//
-// Every further line is one extant witness-unit pair: the witness (its siglum) has the reading
-// at the unit. A pair with no line is a lacuna. Units are kept in the order they first appear,
-// witnesses likewise, and the readings at a unit in the order they first appear at it.
-//
-// Each value has its surrounding white space removed. Witness, unit and reading must not be
-// empty (an omission is a reading too and needs a label of its own); section may be empty, which
-// means "not given". Values must be UTF-8 and must not hold control characters (tabs, line
-// breaks) or a byte-order mark. A UTF-8 byte-order mark at the start of the file and CRLF line
-// ends are accepted; blank lines are skipped.
-//
-// The same witness-unit pair given twice with the same reading is taken once; with different
-// readings it is an error (a corrector is given a siglum of its own). A unit given two different
-// non-empty sections is an error. A file with a header and no rows is an error.
-
 // Column names of the long CSV form.
 const (
 	ColumnWitness = "witness"
@@ -74,7 +53,8 @@ var ErrEmptyFile = errors.New("the file is empty; expected a header line such as
 // ErrNoRows is the error (wrapped in a *ParseError) for a file with a header and no rows.
 var ErrNoRows = errors.New("no rows after the header; expected one row per extant witness-unit pair")
 
-// ReadCSVFile reads a collation in the long CSV form from the file at path.
+// ReadCSVFile reads a collation in the long CSV form (see ReadCSV) from the file at path. A file
+// that cannot be opened gives the *os.PathError, wrapped; every other error is a *ParseError.
 func ReadCSVFile(path string) (*Collation, error) {
 	f, err := os.Open(path)
 	if err != nil {
@@ -84,10 +64,31 @@ func ReadCSVFile(path string) (*Collation, error) {
 	return ReadCSV(f, path)
 }
 
-// ReadCSV reads a collation in the long CSV form (described above) from r. name is used in
-// error messages (a file name). Every error is a *ParseError naming the file, the line and,
-// where there is one, the field; its Err is a *ConflictError for a witness given two readings at
-// a unit and a *SectionError for a unit given two sections.
+// ReadCSV reads a collation in the long CSV form from r. name is used in error messages (a file
+// name). Every error is a *ParseError naming the file, the line and, where there is one, the
+// field; its Err is a *ConflictError for a witness given two readings at a unit, a *SectionError
+// for a unit given two sections, ErrEmptyFile or ErrNoRows.
+//
+// The long CSV form:
+//
+// The first line is a header naming the columns, in any order: witness, unit and reading are
+// required, section is optional. Column names are matched without regard to case or surrounding
+// white space. Any other column is rejected (with the list of the columns that are understood),
+// so that nothing in a file is dropped without the user knowing.
+//
+// Every further line is one extant witness-unit pair: the witness (its siglum) has the reading
+// at the unit. A pair with no line is a lacuna. Units are kept in the order they first appear,
+// witnesses likewise, and the readings at a unit in the order they first appear at it.
+//
+// Each value has its surrounding white space removed. Witness, unit and reading must not be
+// empty (an omission is a reading too and needs a label of its own); section may be empty, which
+// means "not given". Values must be UTF-8 and must not hold control characters (tabs, line
+// breaks) or a byte-order mark. A UTF-8 byte-order mark at the start of the file and CRLF line
+// ends are accepted; blank lines are skipped.
+//
+// The same witness-unit pair given twice with the same reading is taken once; with different
+// readings it is an error (a corrector is given a siglum of its own). A unit given two different
+// non-empty sections is an error. A file with a header and no rows is an error.
 func ReadCSV(r io.Reader, name string) (*Collation, error) {
 	if name == "" {
 		name = "collation CSV"
