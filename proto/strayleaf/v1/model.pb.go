@@ -1114,18 +1114,36 @@ func (x *FitSummary) GetObjectiveHistory() []float64 {
 	return nil
 }
 
-// Calibration is filled by calibration at training time; its fields are defined there.
+// Calibration maps a placement's features to the probability that its best group is the
+// witness's true group. It is learnt at training time (package placement/calibrate) from
+// fragments cut out of training witnesses held out by K-fold refits.
+//
+// Method "logistic-isotonic": a score z = coefficients[0] + sum_i coefficients[i+1] * f_i over the
+// features named in features (in that order), then the isotonic map given by thresholds
+// (increasing scores) and values (non-decreasing probabilities), read by linear interpolation
+// between thresholds and clipped beyond the ends.
 type Calibration struct {
 	state  protoimpl.MessageState `protogen:"open.v1"`
 	Method string                 `protobuf:"bytes,1,opt,name=method,proto3" json:"method,omitempty"`
 	// thresholds and values give a monotone step map from a score to a probability.
-	Thresholds               []float64 `protobuf:"fixed64,2,rep,packed,name=thresholds,proto3" json:"thresholds,omitempty"`
-	Values                   []float64 `protobuf:"fixed64,3,rep,packed,name=values,proto3" json:"values,omitempty"`
-	Coefficients             []float64 `protobuf:"fixed64,4,rep,packed,name=coefficients,proto3" json:"coefficients,omitempty"`
-	ExpectedCalibrationError float64   `protobuf:"fixed64,5,opt,name=expected_calibration_error,json=expectedCalibrationError,proto3" json:"expected_calibration_error,omitempty"`
-	Samples                  int32     `protobuf:"varint,6,opt,name=samples,proto3" json:"samples,omitempty"`
-	unknownFields            protoimpl.UnknownFields
-	sizeCache                protoimpl.SizeCache
+	Thresholds   []float64 `protobuf:"fixed64,2,rep,packed,name=thresholds,proto3" json:"thresholds,omitempty"`
+	Values       []float64 `protobuf:"fixed64,3,rep,packed,name=values,proto3" json:"values,omitempty"`
+	Coefficients []float64 `protobuf:"fixed64,4,rep,packed,name=coefficients,proto3" json:"coefficients,omitempty"`
+	// expected_calibration_error is the ECE over 10 equal-width bins of the cross-fitted map (each
+	// fold's fragments scored by a map learnt without them).
+	ExpectedCalibrationError float64 `protobuf:"fixed64,5,opt,name=expected_calibration_error,json=expectedCalibrationError,proto3" json:"expected_calibration_error,omitempty"`
+	// samples is the number of simulated fragments the map was learnt from.
+	Samples int32 `protobuf:"varint,6,opt,name=samples,proto3" json:"samples,omitempty"`
+	// features names the placement features, in the order of coefficients[1:].
+	Features []string `protobuf:"bytes,7,rep,name=features,proto3" json:"features,omitempty"`
+	// resamples is the number of bootstrap resamples behind the stability feature.
+	Resamples int32 `protobuf:"varint,8,opt,name=resamples,proto3" json:"resamples,omitempty"`
+	// folds is K, the number of refits.
+	Folds int32 `protobuf:"varint,9,opt,name=folds,proto3" json:"folds,omitempty"`
+	// reliability are the 10 bins behind expected_calibration_error (empty bins included).
+	Reliability   []*ReliabilityBin `protobuf:"bytes,10,rep,name=reliability,proto3" json:"reliability,omitempty"`
+	unknownFields protoimpl.UnknownFields
+	sizeCache     protoimpl.SizeCache
 }
 
 func (x *Calibration) Reset() {
@@ -1196,6 +1214,112 @@ func (x *Calibration) GetExpectedCalibrationError() float64 {
 func (x *Calibration) GetSamples() int32 {
 	if x != nil {
 		return x.Samples
+	}
+	return 0
+}
+
+func (x *Calibration) GetFeatures() []string {
+	if x != nil {
+		return x.Features
+	}
+	return nil
+}
+
+func (x *Calibration) GetResamples() int32 {
+	if x != nil {
+		return x.Resamples
+	}
+	return 0
+}
+
+func (x *Calibration) GetFolds() int32 {
+	if x != nil {
+		return x.Folds
+	}
+	return 0
+}
+
+func (x *Calibration) GetReliability() []*ReliabilityBin {
+	if x != nil {
+		return x.Reliability
+	}
+	return nil
+}
+
+// ReliabilityBin is one confidence bin of a reliability diagram: the placements whose confidence
+// lies in (lo, hi] (the first bin [0, hi]), their mean confidence and the share correct.
+type ReliabilityBin struct {
+	state         protoimpl.MessageState `protogen:"open.v1"`
+	Lo            float64                `protobuf:"fixed64,1,opt,name=lo,proto3" json:"lo,omitempty"`
+	Hi            float64                `protobuf:"fixed64,2,opt,name=hi,proto3" json:"hi,omitempty"`
+	Count         int32                  `protobuf:"varint,3,opt,name=count,proto3" json:"count,omitempty"`
+	Confidence    float64                `protobuf:"fixed64,4,opt,name=confidence,proto3" json:"confidence,omitempty"`
+	Accuracy      float64                `protobuf:"fixed64,5,opt,name=accuracy,proto3" json:"accuracy,omitempty"`
+	unknownFields protoimpl.UnknownFields
+	sizeCache     protoimpl.SizeCache
+}
+
+func (x *ReliabilityBin) Reset() {
+	*x = ReliabilityBin{}
+	mi := &file_strayleaf_v1_model_proto_msgTypes[16]
+	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+	ms.StoreMessageInfo(mi)
+}
+
+func (x *ReliabilityBin) String() string {
+	return protoimpl.X.MessageStringOf(x)
+}
+
+func (*ReliabilityBin) ProtoMessage() {}
+
+func (x *ReliabilityBin) ProtoReflect() protoreflect.Message {
+	mi := &file_strayleaf_v1_model_proto_msgTypes[16]
+	if x != nil {
+		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+		if ms.LoadMessageInfo() == nil {
+			ms.StoreMessageInfo(mi)
+		}
+		return ms
+	}
+	return mi.MessageOf(x)
+}
+
+// Deprecated: Use ReliabilityBin.ProtoReflect.Descriptor instead.
+func (*ReliabilityBin) Descriptor() ([]byte, []int) {
+	return file_strayleaf_v1_model_proto_rawDescGZIP(), []int{16}
+}
+
+func (x *ReliabilityBin) GetLo() float64 {
+	if x != nil {
+		return x.Lo
+	}
+	return 0
+}
+
+func (x *ReliabilityBin) GetHi() float64 {
+	if x != nil {
+		return x.Hi
+	}
+	return 0
+}
+
+func (x *ReliabilityBin) GetCount() int32 {
+	if x != nil {
+		return x.Count
+	}
+	return 0
+}
+
+func (x *ReliabilityBin) GetConfidence() float64 {
+	if x != nil {
+		return x.Confidence
+	}
+	return 0
+}
+
+func (x *ReliabilityBin) GetAccuracy() float64 {
+	if x != nil {
+		return x.Accuracy
 	}
 	return 0
 }
@@ -1294,7 +1418,7 @@ const file_strayleaf_v1_model_proto_rawDesc = "" +
 	"iterations\x18\x03 \x01(\x05R\n" +
 	"iterations\x12!\n" +
 	"\fbest_restart\x18\x04 \x01(\x05R\vbestRestart\x12/\n" +
-	"\x11objective_history\x18\x05 \x03(\x01B\x02\x10\x01R\x10objectiveHistory\"\xe5\x01\n" +
+	"\x11objective_history\x18\x05 \x03(\x01B\x02\x10\x01R\x10objectiveHistory\"\xf5\x02\n" +
 	"\vCalibration\x12\x16\n" +
 	"\x06method\x18\x01 \x01(\tR\x06method\x12\"\n" +
 	"\n" +
@@ -1303,7 +1427,20 @@ const file_strayleaf_v1_model_proto_rawDesc = "" +
 	"\x06values\x18\x03 \x03(\x01B\x02\x10\x01R\x06values\x12&\n" +
 	"\fcoefficients\x18\x04 \x03(\x01B\x02\x10\x01R\fcoefficients\x12<\n" +
 	"\x1aexpected_calibration_error\x18\x05 \x01(\x01R\x18expectedCalibrationError\x12\x18\n" +
-	"\asamples\x18\x06 \x01(\x05R\asamplesB*Z(strayleaf/proto/strayleaf/v1;strayleafv1b\x06proto3"
+	"\asamples\x18\x06 \x01(\x05R\asamples\x12\x1a\n" +
+	"\bfeatures\x18\a \x03(\tR\bfeatures\x12\x1c\n" +
+	"\tresamples\x18\b \x01(\x05R\tresamples\x12\x14\n" +
+	"\x05folds\x18\t \x01(\x05R\x05folds\x12>\n" +
+	"\vreliability\x18\n" +
+	" \x03(\v2\x1c.strayleaf.v1.ReliabilityBinR\vreliability\"\x82\x01\n" +
+	"\x0eReliabilityBin\x12\x0e\n" +
+	"\x02lo\x18\x01 \x01(\x01R\x02lo\x12\x0e\n" +
+	"\x02hi\x18\x02 \x01(\x01R\x02hi\x12\x14\n" +
+	"\x05count\x18\x03 \x01(\x05R\x05count\x12\x1e\n" +
+	"\n" +
+	"confidence\x18\x04 \x01(\x01R\n" +
+	"confidence\x12\x1a\n" +
+	"\baccuracy\x18\x05 \x01(\x01R\baccuracyB*Z(strayleaf/proto/strayleaf/v1;strayleafv1b\x06proto3"
 
 var (
 	file_strayleaf_v1_model_proto_rawDescOnce sync.Once
@@ -1317,7 +1454,7 @@ func file_strayleaf_v1_model_proto_rawDescGZIP() []byte {
 	return file_strayleaf_v1_model_proto_rawDescData
 }
 
-var file_strayleaf_v1_model_proto_msgTypes = make([]protoimpl.MessageInfo, 16)
+var file_strayleaf_v1_model_proto_msgTypes = make([]protoimpl.MessageInfo, 17)
 var file_strayleaf_v1_model_proto_goTypes = []any{
 	(*ModelBundle)(nil),            // 0: strayleaf.v1.ModelBundle
 	(*Model)(nil),                  // 1: strayleaf.v1.Model
@@ -1335,6 +1472,7 @@ var file_strayleaf_v1_model_proto_goTypes = []any{
 	(*FragmentaryWitnessNote)(nil), // 13: strayleaf.v1.FragmentaryWitnessNote
 	(*FitSummary)(nil),             // 14: strayleaf.v1.FitSummary
 	(*Calibration)(nil),            // 15: strayleaf.v1.Calibration
+	(*ReliabilityBin)(nil),         // 16: strayleaf.v1.ReliabilityBin
 }
 var file_strayleaf_v1_model_proto_depIdxs = []int32{
 	4,  // 0: strayleaf.v1.Model.prepare:type_name -> strayleaf.v1.PrepareSettings
@@ -1351,11 +1489,12 @@ var file_strayleaf_v1_model_proto_depIdxs = []int32{
 	11, // 11: strayleaf.v1.SetAsideReport.singular_readings:type_name -> strayleaf.v1.SingularReadingNote
 	12, // 12: strayleaf.v1.SetAsideReport.uninformative_units:type_name -> strayleaf.v1.UninformativeUnitNote
 	13, // 13: strayleaf.v1.SetAsideReport.fragmentary_witnesses:type_name -> strayleaf.v1.FragmentaryWitnessNote
-	14, // [14:14] is the sub-list for method output_type
-	14, // [14:14] is the sub-list for method input_type
-	14, // [14:14] is the sub-list for extension type_name
-	14, // [14:14] is the sub-list for extension extendee
-	0,  // [0:14] is the sub-list for field type_name
+	16, // 14: strayleaf.v1.Calibration.reliability:type_name -> strayleaf.v1.ReliabilityBin
+	15, // [15:15] is the sub-list for method output_type
+	15, // [15:15] is the sub-list for method input_type
+	15, // [15:15] is the sub-list for extension type_name
+	15, // [15:15] is the sub-list for extension extendee
+	0,  // [0:15] is the sub-list for field type_name
 }
 
 func init() { file_strayleaf_v1_model_proto_init() }
@@ -1369,7 +1508,7 @@ func file_strayleaf_v1_model_proto_init() {
 			GoPackagePath: reflect.TypeOf(x{}).PkgPath(),
 			RawDescriptor: unsafe.Slice(unsafe.StringData(file_strayleaf_v1_model_proto_rawDesc), len(file_strayleaf_v1_model_proto_rawDesc)),
 			NumEnums:      0,
-			NumMessages:   16,
+			NumMessages:   17,
 			NumExtensions: 0,
 			NumServices:   0,
 		},
