@@ -1,0 +1,197 @@
+package main
+
+import (
+	"context"
+	"errors"
+	"fmt"
+	"io"
+	"os"
+	"strings"
+	"text/tabwriter"
+
+	"strayleaf/placement/collation"
+	"strayleaf/placement/model"
+)
+
+func init() {
+	register(&command{name: "place", summary: "place witnesses or fragments into the groups of a model", run: runPlace})
+}
+
+// placementJSON is one line of `strayleaf place --json`. Its field names are a contract.
+type placementJSON struct {
+	Witness            string      `json:"witness"`
+	Model              string      `json:"model,omitempty"`
+	BestGroup          string      `json:"best_group"`
+	Groups             []shareOut  `json:"groups"`
+	Confidence         float64     `json:"confidence"`
+	CoveredUnits       int         `json:"covered_units"`
+	UsedUnits          int         `json:"used_units"`
+	UnknownReadings    []string    `json:"unknown_readings"`
+	UninformativeUnits []string    `json:"uninformative_units"`
+	RelativeResidual   float64     `json:"relative_residual"`
+	Error              string      `json:"error,omitempty"`
+	Extra              interface{} `json:"-"`
+}
+
+type shareOut struct {
+	Group string  `json:"group"`
+	Share float64 `json:"share"`
+}
+
+// witnessInput is one witness read from a witnesses file.
+type witnessInput struct {
+	Witness  string
+	Readings []model.Reading
+}
+
+// witnessesFromCollation lists each witness of c with its readings at the units it has.
+func witnessesFromCollation(c *collation.Collation) []witnessInput {
+	out := make([]witnessInput, 0, c.NumWitnesses())
+	for w := 0; w < c.NumWitnesses(); w++ {
+		in := witnessInput{Witness: c.Witness(w)}
+		for u, r := range c.Row(w) {
+			if r != collation.Lacuna {
+				un := c.Unit(u)
+				in.Readings = append(in.Readings, model.Reading{Unit: un.ID, Reading: un.Readings[r]})
+			}
+		}
+		out = append(out, in)
+	}
+	return out
+}
+
+func placementOut(p *model.Placement, ref string) placementJSON {
+	out := placementJSON{Witness: p.Witness, Model: ref, BestGroup: p.BestGroup, Confidence: p.Confidence,
+		CoveredUnits: p.CoveredUnits, UsedUnits: p.UsedUnits, RelativeResidual: p.RelativeResidual,
+		UnknownReadings: nonNil(p.UnknownReadings), UninformativeUnits: nonNil(p.UninformativeUnits)}
+	for _, g := range p.Groups {
+		out.Groups = append(out.Groups, shareOut{g.Group, g.Share})
+	}
+	return out
+}
+
+func nonNil(s []string) []string {
+	if s == nil {
+		return []string{}
+	}
+	return s
+}
+
+// modelSource names where a command gets its model: a bundle file or a local store.
+type modelSource struct {
+	bundle, store, ref string
+}
+
+func (s *modelSource) flags(fs interface {
+	StringVar(*string, string, string, string)
+}) {
+	fs.StringVar(&s.bundle, "bundle", "", "model bundle file (from 'strayleaf train')")
+	fs.StringVar(&s.store, "store", "", "local model store file (with --model)")
+	fs.StringVar(&s.ref, "model", "", "model reference in the store: name, name@3 or name@alias")
+}
+
+// load returns the model and the reference it was loaded by.
+func (s *modelSource) load() (*model.Model, string, func(), error) {
+	switch {
+	case s.bundle != "" && s.store != "":
+		return nil, "", nil, errors.New("give either --bundle or --store with --model, not both")
+	case s.bundle != "":
+		b, err := os.ReadFile(s.bundle)
+		if err != nil {
+			return nil, "", nil, err
+		}
+		m, err := model.Decode(b)
+		if err != nil {
+			return nil, "", nil, fmt.Errorf("reading bundle %s: %w", s.bundle, err)
+		}
+		return m, s.bundle, func() {}, nil
+	case s.store != "":
+		if s.ref == "" {
+			return nil, "", nil, errors.New("--store needs --model NAME[@VERSION|@ALIAS]")
+		}
+		return loadFromStore(s.store, s.ref)
+	}
+	return nil, "", nil, errors.New("no model given: use --bundle FILE, or --store DB --model REF")
+}
+
+func runPlace(ctx context.Context, args []string, stdout, stderr io.Writer) error {
+	fs := newFlags("place", "place (--bundle BUNDLE | --store DB --model REF) --witnesses FILE [--json | --format table|json|csv|tei]", stderr)
+	var src modelSource
+	src.flags(fs)
+	path := fs.String("witnesses", "", "witnesses to place, in the collation form (long CSV or TEI); every witness in it is placed")
+	inFormat := fs.String("witnesses-format", "", "format of --witnesses: csv or tei (default: by extension)")
+	asJSON := fs.Bool("json", false, "print JSON lines, one object per witness (same as --format json)")
+	outFormat := fs.String("format", "table", "output: table, json (JSON lines), csv or tei")
+	if err := fs.Parse(args); err != nil {
+		return err
+	}
+	if *path == "" {
+		return usageError("place", "--witnesses is required")
+	}
+	if *asJSON {
+		*outFormat = "json"
+	}
+	m, ref, done, err := src.load()
+	if err != nil {
+		return err
+	}
+	defer done()
+	in, err := readCollation(*path, *inFormat)
+	if err != nil {
+		return err
+	}
+	var results []placementJSON
+	failed := 0
+	ws := m.Engine().NewWorkspace()
+	for _, w := range witnessesFromCollation(in.C) {
+		p, err := m.Place(w.Witness, w.Readings, ws)
+		if err != nil {
+			failed++
+			results = append(results, placementJSON{Witness: w.Witness, Model: ref, Error: err.Error(), Groups: []shareOut{}, UnknownReadings: []string{}, UninformativeUnits: []string{}})
+			continue
+		}
+		results = append(results, placementOut(p, ref))
+	}
+	if err := writePlacements(stdout, *outFormat, results); err != nil {
+		return err
+	}
+	if failed > 0 {
+		fmt.Fprintf(stderr, "strayleaf place: %d of %d witnesses could not be placed (see their error entries)\n", failed, len(results))
+		return exitError{1}
+	}
+	return nil
+}
+
+func writePlacements(w io.Writer, format string, results []placementJSON) error {
+	switch format {
+	case "json":
+		for _, r := range results {
+			if err := writeJSON(w, r); err != nil {
+				return err
+			}
+		}
+		return nil
+	case "csv":
+		return writePlacementsCSV(w, results)
+	case "tei":
+		return writePlacementsTEI(w, results)
+	case "table", "":
+		tw := tabwriter.NewWriter(w, 0, 0, 2, ' ', 0)
+		fmt.Fprintln(tw, "witness\tbest group\tconfidence\tshares\tcovered\tunknown readings")
+		for _, r := range results {
+			if r.Error != "" {
+				fmt.Fprintf(tw, "%s\t-\t-\terror: %s\t\t\n", r.Witness, r.Error)
+				continue
+			}
+			var sh []string
+			for _, g := range r.Groups {
+				if g.Share >= 0.005 {
+					sh = append(sh, fmt.Sprintf("%s %.2f", g.Group, g.Share))
+				}
+			}
+			fmt.Fprintf(tw, "%s\t%s\t%.2f\t%s\t%d\t%d\n", r.Witness, r.BestGroup, r.Confidence, strings.Join(sh, ", "), r.CoveredUnits, len(r.UnknownReadings))
+		}
+		return tw.Flush()
+	}
+	return fmt.Errorf("--format %q: expected table, json, csv or tei", format)
+}

@@ -1,0 +1,121 @@
+// Package model is the frozen group model: the profile matrix W learnt from a collation with the
+// unit/reading index it needs to read new witnesses, the summaries a scholar reads, and the
+// checksummed bundle it travels in. A Model is immutable and safe for concurrent use.
+package model
+
+import (
+	"fmt"
+	"math"
+
+	"gonum.org/v1/gonum/mat"
+
+	"strayleaf/placement"
+	pb "strayleaf/proto/strayleaf/v1"
+)
+
+// Model is a decoded, validated group model ready to place witnesses.
+type Model struct {
+	pb        *pb.Model
+	w         *mat.Dense
+	engine    *placement.Engine
+	unitIndex map[string]int
+	// readingRow[u] maps a reading label of unit u to its row, or -1 when the model knows the
+	// label but set it aside (a singular reading).
+	readingRow []map[string]int
+	groupIDs   []string
+	sizeBytes  int64
+}
+
+// FromProto validates m and builds its placement indexes.
+func FromProto(m *pb.Model) (*Model, error) {
+	k := int(m.GroupCount)
+	nr := len(m.Rows)
+	if k < 1 {
+		return nil, fmt.Errorf("model: group_count is %d; expected at least 1", k)
+	}
+	if nr == 0 {
+		return nil, fmt.Errorf("model: no profile rows")
+	}
+	if len(m.Profile) != nr*k {
+		return nil, fmt.Errorf("model: profile has %d entries; expected rows x groups = %d x %d", len(m.Profile), nr, k)
+	}
+	for i, v := range m.Profile {
+		if !(v >= 0) || math.IsInf(v, 0) {
+			return nil, fmt.Errorf("model: profile entry %d is %v; expected a finite non-negative number", i, v)
+		}
+	}
+	if len(m.Groups) != k {
+		return nil, fmt.Errorf("model: %d group summaries for %d groups", len(m.Groups), k)
+	}
+	out := &Model{pb: m, unitIndex: make(map[string]int, len(m.Units)), readingRow: make([]map[string]int, len(m.Units))}
+	unitRows := make([][2]int, len(m.Units))
+	weights := make([]float64, nr)
+	for u, un := range m.Units {
+		if _, dup := out.unitIndex[un.Id]; dup {
+			return nil, fmt.Errorf("model: unit %q listed twice", un.Id)
+		}
+		out.unitIndex[un.Id] = u
+		lo, hi := int(un.RowStart), int(un.RowEnd)
+		if lo < 0 || hi < lo || hi > nr {
+			return nil, fmt.Errorf("model: unit %q has row range [%d,%d) outside the %d rows", un.Id, lo, hi, nr)
+		}
+		unitRows[u] = [2]int{lo, hi}
+		rr := make(map[string]int, len(un.Readings))
+		for _, label := range un.Readings {
+			rr[label] = -1
+		}
+		for i := lo; i < hi; i++ {
+			row := m.Rows[i]
+			if int(row.Unit) != u || row.Reading < 0 || int(row.Reading) >= len(un.Readings) {
+				return nil, fmt.Errorf("model: row %d does not belong to unit %q", i, un.Id)
+			}
+			rr[un.Readings[row.Reading]] = i
+			weights[i] = row.Weight
+		}
+		out.readingRow[u] = rr
+	}
+	for i, row := range m.Rows {
+		if row.Unit < 0 || int(row.Unit) >= len(m.Units) {
+			return nil, fmt.Errorf("model: row %d names unit %d of %d", i, row.Unit, len(m.Units))
+		}
+		if r := unitRows[row.Unit]; i < r[0] || i >= r[1] {
+			return nil, fmt.Errorf("model: row %d lies outside the row range of its unit %q", i, m.Units[row.Unit].Id)
+		}
+	}
+	out.w = mat.NewDense(nr, k, m.Profile)
+	eng, err := placement.NewEngine(out.w, unitRows, weights)
+	if err != nil {
+		return nil, fmt.Errorf("model: %w", err)
+	}
+	out.engine = eng
+	for _, g := range m.Groups {
+		out.groupIDs = append(out.groupIDs, g.Id)
+	}
+	// Rough resident size: W, the engine's Gram blocks, and the indexes.
+	out.sizeBytes = int64(8*nr*k + 8*len(m.Units)*k*k + 64*len(m.Units) + 48*nr)
+	return out, nil
+}
+
+// Proto returns the model message. The caller must not modify it.
+func (m *Model) Proto() *pb.Model { return m.pb }
+
+// Groups returns the group ids G1..Gk in column order.
+func (m *Model) Groups() []string { return m.groupIDs }
+
+// K returns the number of groups.
+func (m *Model) K() int { return len(m.groupIDs) }
+
+// W returns the profile matrix (readings x groups). The caller must not modify it.
+func (m *Model) W() *mat.Dense { return m.w }
+
+// Engine returns the placement engine over W.
+func (m *Model) Engine() *placement.Engine { return m.engine }
+
+// UnitIndex returns the index of unit id in the model's units.
+func (m *Model) UnitIndex(id string) (int, bool) {
+	u, ok := m.unitIndex[id]
+	return u, ok
+}
+
+// SizeBytes estimates the memory the decoded model holds, for cache accounting.
+func (m *Model) SizeBytes() int64 { return m.sizeBytes }
