@@ -1,0 +1,342 @@
+package nmf
+
+import (
+	"context"
+	"fmt"
+
+	"strayleaf/placement/nnls"
+)
+
+// run is one factorisation from given initial factors: the ANLS iterations on a problem.
+type run struct {
+	p       *problem
+	k, kp   int   // rank and the length of a packed upper triangle, k(k+1)/2
+	off     []int // off[i]: start of row i of a packed upper triangle, minus i
+	workers int
+
+	W  []float64 // m x k row-major: row r is W_r
+	Ht []float64 // n x k row-major: row j is h_j, column j of H
+
+	sc    []float64 // per class c: packed S_c = sum_{r in c} W_r W_r^T
+	gfull []float64 // packed W^T W
+	hht   []float64 // packed H H^T
+	gcls  []float64 // per class: full k x k Gram matrix of its rows in the W step
+	parts []float64 // per block: packed partial sums of H H^T
+	fcol  []float64 // per column: objective terms (H step)
+	frow  []float64 // per row: objective terms (W step)
+	ws    []workspace
+}
+
+// workspace is one worker's scratch.
+type workspace struct {
+	solver *nnls.Solver
+	g      []float64 // k x k
+	gp     []float64 // packed
+	c, x   []float64
+}
+
+// hhtBlock is the number of columns per block in the fixed-order reduction of H H^T.
+const hhtBlock = 64
+
+func newRun(p *problem, k, workers int) *run {
+	kp := k * (k + 1) / 2
+	r := &run{p: p, k: k, kp: kp, workers: workers,
+		off:   make([]int, k),
+		W:     make([]float64, p.m*k),
+		Ht:    make([]float64, p.n*k),
+		sc:    make([]float64, len(p.classes)*kp),
+		gfull: make([]float64, kp),
+		hht:   make([]float64, kp),
+		gcls:  make([]float64, len(p.classes)*k*k),
+		parts: make([]float64, ((p.n+hhtBlock-1)/hhtBlock)*kp),
+		fcol:  make([]float64, p.n),
+		frow:  make([]float64, p.m),
+		ws:    make([]workspace, workers),
+	}
+	for i := 0; i < k; i++ {
+		r.off[i] = i*k - i*(i-1)/2 - i
+	}
+	for w := range r.ws {
+		r.ws[w] = workspace{solver: nnls.NewSolver(k), g: make([]float64, k*k), gp: make([]float64, kp),
+			c: make([]float64, k), x: make([]float64, k)}
+	}
+	return r
+}
+
+// addOuter adds a v v^T to the packed upper triangle t, skipping the zeros of v (NNLS
+// solutions have many).
+func (r *run) addOuter(t []float64, v []float64, a float64) {
+	k := r.k
+	for i := 0; i < k; i++ {
+		vi := v[i]
+		if vi == 0 {
+			continue
+		}
+		o := r.off[i] + i
+		axpy(t[o:o+k-i], v[i:k], a*vi)
+	}
+}
+
+// unpack writes the packed upper triangle t as the full symmetric k x k matrix g. A diagonal
+// entry at most 1e-12 times ref's (the full Gram matrix it was cut from; rounding can leave it
+// slightly negative when G = full - unobserved and the observed part is zero) is taken as zero,
+// with its row and column: such a variable carries no observed data.
+func (r *run) unpack(g, t, ref []float64) {
+	k := r.k
+	for i := 0; i < k; i++ {
+		row := t[r.off[i]:]
+		for j := i; j < k; j++ {
+			g[i*k+j] = row[j]
+			g[j*k+i] = row[j]
+		}
+	}
+	for i := 0; i < k; i++ {
+		d := t[r.off[i]+i]
+		if d > 1e-12*ref[r.off[i]+i] {
+			continue
+		}
+		for j := 0; j < k; j++ {
+			g[i*k+j] = 0
+			g[j*k+i] = 0
+		}
+	}
+}
+
+// quad returns ||b||^2 - 2 x.c + x^T G x for the full k x k matrix G: the squared residual of x
+// in the least-squares problem with Gram matrix G, right-hand side c and ||b||^2 = bb.
+func quad(g, c, x []float64, bb float64) float64 {
+	k := len(x)
+	q := 0.0
+	for i := 0; i < k; i++ {
+		if x[i] == 0 {
+			continue
+		}
+		q += x[i] * (dot(g[i*k:i*k+k], x) - 2*c[i])
+	}
+	return bb + q
+}
+
+// stepH solves every column of H given W: h_j = argmin_{h >= 0} ||m_j .* (x_j - W h)||^2, whose
+// normal equations have G_j = sum over observed r of W_r W_r^T and c_j = W^T (m_j .* x_j). It
+// returns the objective of the factors as they were before the step, from the same Gram
+// matrices.
+func (r *run) stepH() (float64, error) {
+	p, k, kp := r.p, r.k, r.kp
+	err := parallelFor(len(p.classes), r.workers, func(_, c int) error {
+		s := r.sc[c*kp : (c+1)*kp]
+		clear(s)
+		for _, row := range p.classes[c].rows {
+			r.addOuter(s, r.W[int(row)*k:int(row)*k+k], 1)
+		}
+		return nil
+	})
+	if err != nil {
+		return 0, err
+	}
+	clear(r.gfull)
+	for c := range p.classes {
+		s := r.sc[c*kp : (c+1)*kp]
+		add(r.gfull, s)
+	}
+	err = parallelFor(p.n, r.workers, func(w, j int) error {
+		ws := &r.ws[w]
+		gp := ws.gp
+		list := p.colList[p.colListStart[j]:p.colListStart[j+1]]
+		if p.colSubtract[j] {
+			copy(gp, r.gfull)
+			for _, c := range list {
+				s := r.sc[int(c)*kp : (int(c)+1)*kp]
+				for i, v := range s {
+					gp[i] -= v
+				}
+			}
+		} else {
+			clear(gp)
+			for _, c := range list {
+				s := r.sc[int(c)*kp : (int(c)+1)*kp]
+				for i, v := range s {
+					gp[i] += v
+				}
+			}
+		}
+		r.unpack(ws.g, gp, r.gfull)
+		cv := ws.c
+		clear(cv)
+		xm := p.xm
+		for e := xm.colStart[j]; e < xm.colStart[j+1]; e++ {
+			row := int(xm.colRow[e])
+			axpy(cv, r.W[row*k:row*k+k], xm.colVal[e])
+		}
+		h := r.Ht[j*k : j*k+k]
+		r.fcol[j] = quad(ws.g, cv, h, p.colSq[j])
+		if p.colObserved[j] == 0 {
+			clear(h)
+			return nil
+		}
+		if err := ws.solver.SolveGram(ws.g, cv, ws.x); err != nil {
+			return fmt.Errorf("solving column %d of H: %w", j, err)
+		}
+		copy(h, ws.x)
+		return nil
+	})
+	if err != nil {
+		return 0, err
+	}
+	return sumNonNeg(r.fcol), nil
+}
+
+// stepW solves every row of W given H: W_r = argmin_{w >= 0} ||m_r .* (x_r - w H)||^2, with
+// Gram matrix sum over observed j of h_j h_j^T (shared by the rows of a mask class) and
+// c_r = H (m_r .* x_r)^T. It returns the objective after the step.
+func (r *run) stepW() (float64, error) {
+	p, k, kp := r.p, r.k, r.kp
+	nb := len(r.parts) / kp
+	err := parallelFor(nb, r.workers, func(_, b int) error {
+		part := r.parts[b*kp : (b+1)*kp]
+		clear(part)
+		for j := b * hhtBlock; j < min((b+1)*hhtBlock, p.n); j++ {
+			r.addOuter(part, r.Ht[j*k:j*k+k], 1)
+		}
+		return nil
+	})
+	if err != nil {
+		return 0, err
+	}
+	clear(r.hht)
+	for b := 0; b < nb; b++ {
+		add(r.hht, r.parts[b*kp:(b+1)*kp])
+	}
+	err = parallelFor(len(p.classes), r.workers, func(w, c int) error {
+		ws := &r.ws[w]
+		cl := &p.classes[c]
+		gp := ws.gp
+		if cl.subtract {
+			copy(gp, r.hht)
+		} else {
+			clear(gp)
+		}
+		sign := 1.0
+		if cl.subtract {
+			sign = -1
+		}
+		for _, j := range cl.cols {
+			r.addOuter(gp, r.Ht[int(j)*k:int(j)*k+k], sign)
+		}
+		r.unpack(r.gcls[c*k*k:(c+1)*k*k], gp, r.hht)
+		return nil
+	})
+	if err != nil {
+		return 0, err
+	}
+	err = parallelFor(p.m, r.workers, func(w, row int) error {
+		ws := &r.ws[w]
+		c := int(p.rowClass[row])
+		wr := r.W[row*k : row*k+k]
+		if p.classes[c].observed == 0 {
+			clear(wr)
+			r.frow[row] = 0
+			return nil
+		}
+		g := r.gcls[c*k*k : (c+1)*k*k]
+		cv := ws.c
+		clear(cv)
+		xm := p.xm
+		for e := xm.rowStart[row]; e < xm.rowStart[row+1]; e++ {
+			j := int(xm.rowCol[e])
+			axpy(cv, r.Ht[j*k:j*k+k], xm.rowVal[e])
+		}
+		if err := ws.solver.SolveGram(g, cv, ws.x); err != nil {
+			return fmt.Errorf("solving row %d of W: %w", row, err)
+		}
+		copy(wr, ws.x)
+		r.frow[row] = quad(g, cv, wr, p.rowSq[row])
+		return nil
+	})
+	if err != nil {
+		return 0, err
+	}
+	return sumNonNeg(r.frow), nil
+}
+
+// sumNonNeg adds up terms in order and clamps the total at zero (a near-perfect fit can come
+// out slightly negative by cancellation in ||b||^2 - 2 x.c + x^T G x).
+func sumNonNeg(terms []float64) float64 {
+	s := 0.0
+	for _, v := range terms {
+		s += v
+	}
+	return max(s, 0)
+}
+
+// iterate runs ANLS to convergence or the iteration cap. It returns the objective history
+// (history[0] for the initial factors) and whether the relative decrease fell below tol.
+func (r *run) iterate(ctx context.Context, maxIter int, tol float64, onIter func(it int, f float64)) ([]float64, bool, error) {
+	history := make([]float64, 0, maxIter+1)
+	// Below this the fit is exact to working precision and relative changes are rounding noise.
+	floor := 1e-10 * r.p.total
+	for it := 1; it <= maxIter; it++ {
+		if err := ctx.Err(); err != nil {
+			return history, false, err
+		}
+		before, err := r.stepH()
+		if err != nil {
+			return history, false, fmt.Errorf("iteration %d: %w", it, err)
+		}
+		if it == 1 {
+			history = append(history, before)
+		}
+		f, err := r.stepW()
+		if err != nil {
+			return history, false, fmt.Errorf("iteration %d: %w", it, err)
+		}
+		history = append(history, f)
+		if onIter != nil {
+			onIter(it, f)
+		}
+		prev := history[len(history)-2]
+		if f <= floor || prev-f <= tol*prev {
+			return history, true, nil
+		}
+	}
+	return history, false, nil
+}
+
+// objective returns ||M .* (X - W H)||_F^2 computed cell by cell from the factors.
+func (r *run) objective() float64 {
+	p, k := r.p, r.k
+	_ = parallelFor(p.m, r.workers, func(_, row int) error {
+		wr := r.W[row*k : row*k+k]
+		xm := p.xm
+		e, end := xm.rowStart[row], xm.rowStart[row+1]
+		s := 0.0
+		for j, o := range p.maskRow(row) {
+			if o == 0 {
+				continue
+			}
+			d := -dot(wr, r.Ht[j*k:j*k+k])
+			if e < end && int(xm.rowCol[e]) == j {
+				d += xm.rowVal[e]
+				e++
+			}
+			s += d * d
+		}
+		r.frow[row] = s
+		return nil
+	})
+	return sumNonNeg(r.frow)
+}
+
+// add sets dst += x; sub sets dst -= x (len(x) >= len(dst)).
+func add(dst, x []float64) {
+	x = x[:len(dst)]
+	for i := range dst {
+		dst[i] += x[i]
+	}
+}
+
+func sub(dst, x []float64) {
+	x = x[:len(dst)]
+	for i := range dst {
+		dst[i] -= x[i]
+	}
+}
