@@ -490,7 +490,10 @@ func Simulate(cfg Config) (*Tradition, error) {
 			at := firstUnitOf(sectionOf, p.switchSection)
 			wt.Shares[p.group] = float64(at) / float64(nu)
 			wt.Shares[p.second] = float64(nu-at) / float64(nu)
-			wt.Switch = &Switch{Section: sectionNames[p.switchSection], SectionIndex: p.switchSection, Unit: at, To: p.second}
+			wt.Switch = &Switch{Section: sectionNames[p.switchSection], SectionIndex: p.switchSection, Unit: at, From: p.group, To: p.second}
+			if 2*at < nu {
+				wt.Group = p.second
+			}
 		default:
 			wt.Shares[p.group] = 1
 		}

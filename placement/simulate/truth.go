@@ -47,8 +47,10 @@ type Switch struct {
 	Section      string `json:"section"`
 	SectionIndex int    `json:"section_index"`
 	Unit         int    `json:"unit"`
-	// To is the group of the new exemplar.
-	To int `json:"to"`
+	// From is the group of the exemplar of the sections before the switch, To that of the
+	// sections from it on.
+	From int `json:"from"`
+	To   int `json:"to"`
 }
 
 // Fragment tells what survives of a fragmentary witness.
@@ -62,8 +64,9 @@ type Fragment struct {
 // WitnessTruth is what really happened to one witness.
 type WitnessTruth struct {
 	Siglum string `json:"siglum"`
-	// Group is the index of the witness's own group: the group it was copied from, or for a
-	// block-mixed witness the group of its opening sections.
+	// Group is the index of the witness's own (primary) group: the group it was copied from; for
+	// a mixed witness the group of the larger share; for a block-mixed witness the group it
+	// copied more units from (on a tie, the group of its opening sections).
 	Group int  `json:"group"`
 	Kind  Kind `json:"kind"`
 	// Shares[g] is the true share of group g in the witness's descent: 1 for its own group if it

@@ -85,14 +85,20 @@ var (
 	codas  = []string{"", "", "", "n", "r", "l", "s", "m", "nd", "rn", "st", "th"}
 )
 
-// inventWord makes a word of two or three syllables, such as "clearnde" or "vomastou".
+// inventWord makes a word of one to three syllables (mostly two), such as "vulaeth" or "grome".
 func inventWord(rng *rand.Rand) string {
 	var b strings.Builder
-	syllables := 2 + intN(rng, 2)
+	syllables := 2
+	switch k := intN(rng, 20); {
+	case k < 3:
+		syllables = 1
+	case k >= 17:
+		syllables = 3
+	}
 	for i := range syllables {
 		b.WriteString(onsets[intN(rng, len(onsets))])
 		b.WriteString(vowels[intN(rng, len(vowels))])
-		if i == syllables-1 || chance(rng, 0.4) {
+		if i == syllables-1 || chance(rng, 0.25) {
 			b.WriteString(codas[intN(rng, len(codas))])
 		}
 	}
