@@ -1,7 +1,6 @@
 package tei
 
 import (
-	"bufio"
 	"errors"
 	"io"
 )
@@ -16,47 +15,83 @@ var (
 // mark, and fails once the input or the current token grows past its limit. The decoder keeps
 // the failure as its error, so a read stops at the limit instead of buffering an unbounded token.
 type boundedReader struct {
-	r          *bufio.Reader
-	n          int64 // bytes handed to the decoder
-	maxInput   int64
-	tokenStart int64 // n when the current token began
-	maxToken   int64
-	started    bool
-	limitErr   error // the limit that stopped the read, if any
+	r        io.Reader
+	buf      []byte
+	pos, end int
+	err      error // the underlying reader's error, returned once buf is drained
+	n        int64 // bytes handed to the decoder
+	stop     int64 // n at which the next limit is reached: min(maxInput, tokenStart+maxToken)
+	maxInput int64
+	maxToken int64
+	started  bool
 }
 
 func newBoundedReader(r io.Reader, maxInput, maxToken int64) *boundedReader {
-	return &boundedReader{r: bufio.NewReaderSize(r, 64<<10), maxInput: maxInput, maxToken: maxToken}
+	b := &boundedReader{r: r, buf: make([]byte, 64<<10), maxInput: maxInput, maxToken: maxToken}
+	b.startToken()
+	return b
 }
 
 // startToken marks the start of the next token.
-func (b *boundedReader) startToken() { b.tokenStart = b.n }
-
-func (b *boundedReader) skipBOM() {
-	b.started = true
-	if p, err := b.r.Peek(3); err == nil && p[0] == 0xEF && p[1] == 0xBB && p[2] == 0xBF {
-		_, _ = b.r.Discard(3)
+func (b *boundedReader) startToken() {
+	b.stop = b.maxInput
+	if t := b.n + b.maxToken; t < b.stop {
+		b.stop = t
 	}
 }
 
 // ReadByte implements io.ByteReader.
 func (b *boundedReader) ReadByte() (byte, error) {
-	if !b.started {
-		b.skipBOM()
+	if b.pos < b.end && b.n < b.stop {
+		c := b.buf[b.pos]
+		b.pos++
+		b.n++
+		return c, nil
 	}
-	if b.n >= b.maxInput {
-		b.limitErr = errInputLimit
-		return 0, errInputLimit
-	}
-	if b.n-b.tokenStart >= b.maxToken {
-		b.limitErr = errTokenLimit
+	return b.slowByte()
+}
+
+func (b *boundedReader) slowByte() (byte, error) {
+	if b.n >= b.stop {
+		if b.n >= b.maxInput {
+			return 0, errInputLimit
+		}
 		return 0, errTokenLimit
 	}
-	c, err := b.r.ReadByte()
-	if err == nil {
-		b.n++
+	for b.pos >= b.end {
+		if b.err != nil {
+			return 0, b.err
+		}
+		b.fill()
 	}
-	return c, err
+	return b.ReadByte()
+}
+
+// fill reads the next chunk. The first fill reads at least 3 bytes (if there are so many) to
+// see a byte order mark. A reader that keeps returning nothing and no error is given up on.
+func (b *boundedReader) fill() {
+	want := 1
+	if !b.started {
+		want = 3
+	}
+	n, empty := 0, 0
+	for n < want && b.err == nil {
+		m, err := b.r.Read(b.buf[n:])
+		n += m
+		b.err = err
+		if m == 0 && err == nil {
+			if empty++; empty > 100 {
+				b.err = io.ErrNoProgress
+			}
+		}
+	}
+	b.pos, b.end = 0, n
+	if !b.started {
+		b.started = true
+		if n >= 3 && b.buf[0] == 0xEF && b.buf[1] == 0xBB && b.buf[2] == 0xBF {
+			b.pos = 3
+		}
+	}
 }
 
 // Read implements io.Reader (used only if a charset reader wraps this one).
@@ -72,7 +107,7 @@ func (b *boundedReader) Read(p []byte) (int, error) {
 		}
 		p[n] = c
 		n++
-		if b.r.Buffered() == 0 {
+		if b.pos >= b.end {
 			break
 		}
 	}

@@ -342,13 +342,25 @@ func (p *parser) decodeError(line int, err error) error {
 	var se *xml.SyntaxError
 	if errors.As(err, &se) {
 		msg := se.Msg
+		if msg == "unexpected EOF" {
+			msg = "unexpected end of input (an element is left open)"
+		}
 		if strings.Contains(msg, "entity") {
 			msg += " (only the predefined entities &lt; &gt; &amp; &quot; &apos; and character references are read; no entity is declared or expanded)"
 		}
-		return p.errAt(se.Line, "", fmt.Errorf("malformed XML: %s: %w", msg, err))
+		return p.errAt(se.Line, "", &malformedError{msg: msg, err: err})
 	}
-	return p.errAt(line, "", fmt.Errorf("malformed XML: %w", err))
+	return p.errAt(line, "", fmt.Errorf("cannot read the input: %w", err))
 }
+
+// malformedError is a decoder error, worded without the decoder's own prefix and line.
+type malformedError struct {
+	msg string
+	err error
+}
+
+func (e *malformedError) Error() string { return "malformed XML: " + e.msg }
+func (e *malformedError) Unwrap() error { return e.err }
 
 func (p *parser) top() frame {
 	if len(p.stack) == 0 {

@@ -1,10 +1,13 @@
 package tei
 
 import (
+	"errors"
 	"fmt"
+	"io"
 	"reflect"
 	"strings"
 	"testing"
+	"testing/iotest"
 
 	"strayleaf/placement/collation"
 )
@@ -262,4 +265,20 @@ func TestOptions(t *testing.T) {
 		s := "\xEF\xBB\xBF<?xml version=\"1.0\" encoding=\"US-ASCII\"?>" + doc(abc, `<app xml:id="u1"><rdg wit="#A">caf&#233; &amp; co</rdg></app>`)
 		checkCollation(t, read(t, s, Options{}), []string{"A", "B", "C"}, []wantUnit{{"u1", "", []string{"café & co"}, "0--"}})
 	})
+}
+
+func TestReaders(t *testing.T) {
+	s := "\xEF\xBB\xBF" + doc(abc, `<app xml:id="u1"><rdg wit="#A">x</rdg></app>`)
+	c, _, err := Read(iotest.OneByteReader(strings.NewReader(s)), "one-byte.xml", Options{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	checkCollation(t, c, []string{"A", "B", "C"}, []wantUnit{{"u1", "", []string{"x"}, "0--"}})
+	if _, _, err = Read(iotest.DataErrReader(strings.NewReader(s)), "data-err.xml", Options{}); err != nil {
+		t.Errorf("data with EOF: %v", err)
+	}
+	_, _, err = Read(io.MultiReader(strings.NewReader(s[:100]), iotest.ErrReader(errors.New("disk on fire"))), "broken.xml", Options{})
+	if err == nil || !strings.Contains(err.Error(), "disk on fire") || !strings.Contains(err.Error(), "broken.xml") {
+		t.Errorf("a failing reader: err = %v", err)
+	}
 }
