@@ -78,9 +78,6 @@ func otherThan(rng *rand.Rand, n, x int) int {
 	return k
 }
 
-// round2 rounds to two decimals.
-func round2(x float64) float64 { return math.Round(100*x) / 100 }
-
 // IntN returns a uniform integer in [0, n) (0 if n <= 1) drawn from rng by the same mapping the
 // simulator uses, which depends on rng.Uint64 alone: code that builds simulated data on top of
 // this package can use it to stay reproducible across Go releases.

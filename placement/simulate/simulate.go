@@ -77,8 +77,9 @@ type Config struct {
 	// Mixed, BlockMixed and Fragmentary are the shares of witnesses of each kind (rounded to
 	// whole witnesses). Every group keeps at least two pure witnesses.
 	Mixed, BlockMixed, Fragmentary float64
-	// MixtureMin and MixtureMax bound the secondary share of a mixed witness (drawn uniformly,
-	// rounded to 0.01; at most 0.5, so that the primary group stays the larger source).
+	// MixtureMin and MixtureMax bound the secondary share of a mixed witness, drawn uniformly
+	// among the multiples of 0.01 between them (at most 0.5, so that the primary group stays the
+	// larger source).
 	MixtureMin, MixtureMax float64
 	// FragmentMin and FragmentMax bound the share of units a fragmentary witness keeps.
 	FragmentMin, FragmentMax float64
@@ -179,8 +180,10 @@ func (c Config) Validate() error {
 	}
 	share("family_divergence", c.FamilyDivergence)
 	share("group_divergence", c.GroupDivergence)
-	if c.FamilyDivergence == 0 && c.GroupDivergence == 0 {
-		bad("family_divergence and group_divergence are both 0; no exemplar would differ from the archetype")
+	// A unit is drawn again until some exemplar departs at it (see the package doc): the chance
+	// that none does must leave room for that.
+	if none := math.Pow(1-c.FamilyDivergence, float64(len(c.Families))) * math.Pow(1-c.GroupDivergence, float64(groups)); none > 0.999 {
+		bad("family_divergence %g and group_divergence %g are too small: at %.2f%% of draws no exemplar would differ from the archetype", c.FamilyDivergence, c.GroupDivergence, 100*(1-none))
 	}
 	share("scribal_rate", c.ScribalRate)
 	share("coincident_share", c.CoincidentShare)
@@ -188,8 +191,8 @@ func (c Config) Validate() error {
 	share("block_mixed", c.BlockMixed)
 	share("fragmentary", c.Fragmentary)
 	share("scattered_share", c.ScatteredShare)
-	if !(c.MixtureMin > 0 && c.MixtureMin <= c.MixtureMax && c.MixtureMax <= 0.5) {
-		bad("mixture range is [%g, %g]; expected 0 < min <= max <= 0.5", c.MixtureMin, c.MixtureMax)
+	if lo, hi := hundredths(c.MixtureMin, c.MixtureMax); !(c.MixtureMin > 0 && c.MixtureMax <= 0.5 && lo <= hi) {
+		bad("mixture range is [%g, %g]; expected 0 < min <= max <= 0.5 with a multiple of 0.01 between them", c.MixtureMin, c.MixtureMax)
 	}
 	if !(c.FragmentMin > 0 && c.FragmentMin <= c.FragmentMax && c.FragmentMax < 1) {
 		bad("fragment range is [%g, %g]; expected 0 < min <= max < 1", c.FragmentMin, c.FragmentMax)
@@ -248,6 +251,11 @@ func distinct(what string, names []string) error {
 		seen[n] = true
 	}
 	return nil
+}
+
+// hundredths returns the multiples of 0.01 in [lo, hi], in hundredths.
+func hundredths(lo, hi float64) (int, int) {
+	return int(math.Ceil(100*lo - 1e-9)), int(math.Floor(100*hi + 1e-9))
 }
 
 // kindCount is the whole number of witnesses for a share.
@@ -406,8 +414,8 @@ func Simulate(cfg Config) (*Tradition, error) {
 		switch p.kind {
 		case KindMixed:
 			p.second = otherThan(rng, ng, p.group)
-			p.share = round2(uniform(rng, cfg.MixtureMin, cfg.MixtureMax))
-			p.share = math.Min(math.Max(p.share, cfg.MixtureMin), cfg.MixtureMax)
+			lo, hi := hundredths(cfg.MixtureMin, cfg.MixtureMax)
+			p.share = float64(lo+intN(rng, hi-lo+1)) / 100
 		case KindBlockMixed:
 			p.second = otherThan(rng, ng, p.group)
 			p.switchSection = 1 + intN(rng, cfg.Sections-1)
@@ -484,7 +492,7 @@ func Simulate(cfg Config) (*Tradition, error) {
 		}
 		switch p.kind {
 		case KindMixed:
-			wt.Shares[p.group] = round2(1 - p.share)
+			wt.Shares[p.group] = float64(100-int(math.Round(100*p.share))) / 100
 			wt.Shares[p.second] = p.share
 		case KindBlockMixed:
 			at := firstUnitOf(sectionOf, p.switchSection)
