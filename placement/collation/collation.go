@@ -236,7 +236,13 @@ func (b *Builder) Add(siglum, id, label, section string) error {
 	if err != nil {
 		return err
 	}
-	w := b.AddWitness(siglum)
+	return b.AddCell(b.AddWitness(siglum), u, label)
+}
+
+// AddCell records that witness w has reading label at unit u (indexes from AddWitness and
+// AddUnit). It is Add without the lookups by name: the same cell given twice with the same
+// reading is accepted once; with a different reading it is a *ConflictError.
+func (b *Builder) AddCell(w, u int, label string) error {
 	row := b.rows[w]
 	for len(row) <= u {
 		row = append(row, Lacuna)
@@ -245,7 +251,7 @@ func (b *Builder) Add(siglum, id, label, section string) error {
 	// Check for a conflict before the label is declared, so that a rejected cell leaves no
 	// reading behind at the unit.
 	if prev := row[u]; prev != Lacuna && int(prev) != b.units[u].ReadingIndex(label) {
-		return &ConflictError{Witness: siglum, Unit: id, First: b.units[u].Readings[prev], Second: label}
+		return &ConflictError{Witness: b.witnesses[w], Unit: b.units[u].ID, First: b.units[u].Readings[prev], Second: label}
 	}
 	row[u] = int32(b.AddReading(u, label))
 	return nil

@@ -127,11 +127,12 @@ func ReadCSV(r io.Reader, name string) (*Collation, error) {
 		return nil, fail(headerLine, "", err)
 	}
 
-	type cell struct{ w, u string }
 	var (
-		b           Builder
-		firstCell   = map[cell]int{}   // line each witness-unit pair was first given on
-		sectionLine = map[string]int{} // line each unit's section was first given on
+		b Builder
+		// cellLine[w][u] is the line witness w's reading at unit u was first given on (0: not
+		// yet); sectionLine[u] the line unit u's section was first given on.
+		cellLine    [][]int32
+		sectionLine []int
 		rows        = 0
 	)
 	for {
@@ -160,23 +161,29 @@ func ReadCSV(r io.Reader, name string) (*Collation, error) {
 			vals[cols.role[i]] = v
 		}
 		siglum, unit, reading, section := vals[0], vals[1], vals[2], vals[3]
-		if err := b.Add(siglum, unit, reading, section); err != nil {
-			var se *SectionError
-			var ce *ConflictError
-			switch {
-			case errors.As(err, &se):
-				return nil, fail(line, ColumnSection, fmt.Errorf("%w (the first was given on line %d)", err, sectionLine[unit]))
-			case errors.As(err, &ce):
-				return nil, fail(line, ColumnReading, fmt.Errorf("%w (the first was given on line %d)", err, firstCell[cell{siglum, unit}]))
-			default:
-				return nil, fail(line, "", err)
-			}
+
+		u, err := b.AddUnit(unit, section)
+		if err != nil {
+			return nil, fail(line, ColumnSection, fmt.Errorf("%w (the first was given on line %d)", err, sectionLine[u]))
 		}
-		if _, ok := firstCell[cell{siglum, unit}]; !ok {
-			firstCell[cell{siglum, unit}] = line
+		if u == len(sectionLine) {
+			sectionLine = append(sectionLine, 0)
 		}
-		if _, ok := sectionLine[unit]; !ok && section != "" {
-			sectionLine[unit] = line
+		if sectionLine[u] == 0 && section != "" {
+			sectionLine[u] = line
+		}
+		w := b.AddWitness(siglum)
+		if w == len(cellLine) {
+			cellLine = append(cellLine, nil)
+		}
+		if err := b.AddCell(w, u, reading); err != nil {
+			return nil, fail(line, ColumnReading, fmt.Errorf("%w (the first was given on line %d)", err, cellLine[w][u]))
+		}
+		for len(cellLine[w]) <= u {
+			cellLine[w] = append(cellLine[w], 0)
+		}
+		if cellLine[w][u] == 0 {
+			cellLine[w][u] = int32(line)
 		}
 		rows++
 	}
