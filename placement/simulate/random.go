@@ -41,9 +41,6 @@ func float01(rng *rand.Rand) float64 {
 // chance reports true with probability p.
 func chance(rng *rand.Rand, p float64) bool { return float01(rng) < p }
 
-// uniform returns a uniform float64 in [lo, hi).
-func uniform(rng *rand.Rand, lo, hi float64) float64 { return lo + (hi-lo)*float01(rng) }
-
 // poisson draws a Poisson(lambda) count by Knuth's product-of-uniforms method (Knuth, TAOCP
 // vol. 2, 3.4.1), fine for the small means used here.
 func poisson(rng *rand.Rand, lambda float64) int {
