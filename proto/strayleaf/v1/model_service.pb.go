@@ -606,8 +606,9 @@ type PublishModelRequest struct {
 	// bundle is a model bundle as written by `strayleaf train`.
 	Bundle []byte `protobuf:"bytes,2,opt,name=bundle,proto3" json:"bundle,omitempty"`
 	Note   string `protobuf:"bytes,3,opt,name=note,proto3" json:"note,omitempty"`
-	// aliases are set to the new version once it is stored (e.g. ["current"]).
-	Aliases       []string `protobuf:"bytes,4,rep,name=aliases,proto3" json:"aliases,omitempty"`
+	// alias, if set, is moved to the new version in the same transaction that stores it. A
+	// model's first version also becomes its "current" unless the model has one already.
+	Alias         string `protobuf:"bytes,4,opt,name=alias,proto3" json:"alias,omitempty"`
 	unknownFields protoimpl.UnknownFields
 	sizeCache     protoimpl.SizeCache
 }
@@ -663,11 +664,11 @@ func (x *PublishModelRequest) GetNote() string {
 	return ""
 }
 
-func (x *PublishModelRequest) GetAliases() []string {
+func (x *PublishModelRequest) GetAlias() string {
 	if x != nil {
-		return x.Aliases
+		return x.Alias
 	}
-	return nil
+	return ""
 }
 
 type PublishModelResponse struct {
@@ -794,11 +795,9 @@ func (x *SetAliasRequest) GetVersion() int32 {
 type SetAliasResponse struct {
 	state protoimpl.MessageState `protogen:"open.v1"`
 	// model is the version the alias now points at, "name@version".
-	Model string `protobuf:"bytes,1,opt,name=model,proto3" json:"model,omitempty"`
-	// previous_version is the version it pointed at before, 0 if it is new.
-	PreviousVersion int32 `protobuf:"varint,2,opt,name=previous_version,json=previousVersion,proto3" json:"previous_version,omitempty"`
-	unknownFields   protoimpl.UnknownFields
-	sizeCache       protoimpl.SizeCache
+	Model         string `protobuf:"bytes,1,opt,name=model,proto3" json:"model,omitempty"`
+	unknownFields protoimpl.UnknownFields
+	sizeCache     protoimpl.SizeCache
 }
 
 func (x *SetAliasResponse) Reset() {
@@ -836,13 +835,6 @@ func (x *SetAliasResponse) GetModel() string {
 		return x.Model
 	}
 	return ""
-}
-
-func (x *SetAliasResponse) GetPreviousVersion() int32 {
-	if x != nil {
-		return x.PreviousVersion
-	}
-	return 0
 }
 
 type DeleteModelVersionRequest struct {
@@ -1089,12 +1081,12 @@ const file_strayleaf_v1_model_service_proto_rawDesc = "" +
 	"\x0eSetAsideCounts\x12+\n" +
 	"\x11singular_readings\x18\x01 \x01(\x05R\x10singularReadings\x12/\n" +
 	"\x13uninformative_units\x18\x02 \x01(\x05R\x12uninformativeUnits\x123\n" +
-	"\x15fragmentary_witnesses\x18\x03 \x01(\x05R\x14fragmentaryWitnesses\"o\n" +
+	"\x15fragmentary_witnesses\x18\x03 \x01(\x05R\x14fragmentaryWitnesses\"k\n" +
 	"\x13PublishModelRequest\x12\x12\n" +
 	"\x04name\x18\x01 \x01(\tR\x04name\x12\x16\n" +
 	"\x06bundle\x18\x02 \x01(\fR\x06bundle\x12\x12\n" +
-	"\x04note\x18\x03 \x01(\tR\x04note\x12\x18\n" +
-	"\aaliases\x18\x04 \x03(\tR\aaliases\"\x89\x01\n" +
+	"\x04note\x18\x03 \x01(\tR\x04note\x12\x14\n" +
+	"\x05alias\x18\x04 \x01(\tR\x05alias\"\x89\x01\n" +
 	"\x14PublishModelResponse\x12\x14\n" +
 	"\x05model\x18\x01 \x01(\tR\x05model\x12\x18\n" +
 	"\aversion\x18\x02 \x01(\x05R\aversion\x12A\n" +
@@ -1102,10 +1094,9 @@ const file_strayleaf_v1_model_service_proto_rawDesc = "" +
 	"\x0fSetAliasRequest\x12\x12\n" +
 	"\x04name\x18\x01 \x01(\tR\x04name\x12\x14\n" +
 	"\x05alias\x18\x02 \x01(\tR\x05alias\x12\x18\n" +
-	"\aversion\x18\x03 \x01(\x05R\aversion\"S\n" +
+	"\aversion\x18\x03 \x01(\x05R\aversion\"(\n" +
 	"\x10SetAliasResponse\x12\x14\n" +
-	"\x05model\x18\x01 \x01(\tR\x05model\x12)\n" +
-	"\x10previous_version\x18\x02 \x01(\x05R\x0fpreviousVersion\"I\n" +
+	"\x05model\x18\x01 \x01(\tR\x05model\"I\n" +
 	"\x19DeleteModelVersionRequest\x12\x12\n" +
 	"\x04name\x18\x01 \x01(\tR\x04name\x12\x18\n" +
 	"\aversion\x18\x02 \x01(\x05R\aversion\"\x1c\n" +

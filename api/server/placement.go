@@ -1,0 +1,287 @@
+package server
+
+import (
+	"context"
+	"errors"
+	"io"
+	"runtime"
+	"sync"
+	"weak"
+
+	"google.golang.org/grpc/codes"
+	"google.golang.org/grpc/status"
+
+	"strayleaf/modelstore"
+	"strayleaf/placement"
+	"strayleaf/placement/model"
+	pb "strayleaf/proto/strayleaf/v1"
+)
+
+// scratch is the per-goroutine memory of placements against one model.
+type scratch struct {
+	ws       *placement.Workspace
+	readings []model.Reading
+}
+
+// workspacePools keeps one pool of scratch memory per decoded model. The key is a weak pointer,
+// so a model the store's cache has dropped can be collected; its pool goes with it.
+type workspacePools struct{ m sync.Map } // weak.Pointer[model.Model] -> *sync.Pool
+
+func (p *workspacePools) pool(m *model.Model) *sync.Pool {
+	key := weak.Make(m)
+	if v, ok := p.m.Load(key); ok {
+		return v.(*sync.Pool)
+	}
+	// The pool must not hold m itself, or m would never become unreachable.
+	eng := m.Engine()
+	fresh := &sync.Pool{New: func() any { return &scratch{ws: eng.NewWorkspace()} }}
+	v, loaded := p.m.LoadOrStore(key, fresh)
+	if !loaded {
+		runtime.AddCleanup(m, func(k weak.Pointer[model.Model]) { p.m.Delete(k) }, key)
+	}
+	return v.(*sync.Pool)
+}
+
+// resolve finds the model a reference names.
+func (s *Server) resolve(ref, field string) (*model.Model, modelstore.Ref, *problem) {
+	if ref == "" {
+		return nil, modelstore.Ref{}, badRequest("no model reference given", violation(field, "empty; expected \"name\", \"name@3\" or \"name@alias\""))
+	}
+	m, r, err := s.store.Model(ref)
+	if err != nil {
+		return nil, modelstore.Ref{}, storeProblem(err, field)
+	}
+	return m, r, nil
+}
+
+// placeOne checks and places one witness. ref is the version used, for the answer.
+func (s *Server) placeOne(ctx context.Context, m *model.Model, ref string, witness string, readings []*pb.WitnessReading) (*pb.Placement, *problem) {
+	if p := contextProblem(ctx); p != nil {
+		return nil, p
+	}
+	if n := len(readings); n > s.limits.MaxUnitsPerWitness {
+		return nil, badRequest("witness "+siglumOrNone(witness)+": too many readings",
+			violation("readings", "%d readings; at most %d per witness", n, s.limits.MaxUnitsPerWitness))
+	}
+	var noSiglum []*pb.FieldViolation
+	if witness == "" {
+		noSiglum = append(noSiglum, violation("witness", "empty siglum; name the witness or fragment"))
+	}
+	pool := s.pools.pool(m)
+	sc := pool.Get().(*scratch)
+	defer pool.Put(sc)
+	rs := sc.readings[:0]
+	for _, r := range readings {
+		rs = append(rs, model.Reading{Unit: r.GetUnit(), Reading: r.GetReading()})
+	}
+	sc.readings = rs
+	var (
+		pl  *model.Placement
+		err error
+	)
+	if noSiglum != nil {
+		_, _, err = m.Observe(witness, rs, nil)
+		if err == nil {
+			return nil, badRequest("witness has no siglum", noSiglum...)
+		}
+	} else {
+		pl, err = m.Place(witness, rs, sc.ws)
+	}
+	if err != nil {
+		var in *model.InputError
+		switch {
+		case errors.As(err, &in):
+			return nil, fromInputError(in, noSiglum...)
+		case errors.Is(err, model.ErrNoCoverage):
+			return nil, badRequest(err.Error(), violation("readings", "none of the units given carries grouping signal in %s; check more units", ref))
+		}
+		return nil, &problem{code: codes.Internal, msg: err.Error()}
+	}
+	return placementProto(ref, pl), nil
+}
+
+// placementProto converts a placement for the wire, with one allocation for all group shares.
+func placementProto(ref string, p *model.Placement) *pb.Placement {
+	shares := make([]pb.GroupShare, len(p.Groups))
+	groups := make([]*pb.GroupShare, len(p.Groups))
+	for i, g := range p.Groups {
+		shares[i].Group, shares[i].Share = g.Group, g.Share
+		groups[i] = &shares[i]
+	}
+	return &pb.Placement{
+		Model: ref, Witness: p.Witness, BestGroup: p.BestGroup, Groups: groups, Confidence: p.Confidence,
+		CoveredUnits: int32(p.CoveredUnits), UnknownReadings: p.UnknownReadings, UsedUnits: int32(p.UsedUnits),
+		UninformativeUnits: p.UninformativeUnits, RelativeResidual: p.RelativeResidual,
+	}
+}
+
+// Place places one partial witness.
+func (s *Server) Place(ctx context.Context, req *pb.PlaceRequest) (*pb.PlaceResponse, error) {
+	m, r, prob := s.resolve(req.GetModel(), "model")
+	if prob != nil {
+		return nil, prob.status()
+	}
+	p, prob := s.placeOne(ctx, m, r.String(), req.GetWitness(), req.GetReadings())
+	s.metrics.Placed(r.Name, prob == nil)
+	if prob != nil {
+		return nil, prob.status()
+	}
+	return &pb.PlaceResponse{Placement: p}, nil
+}
+
+// Suggest checks the witness against the model and names the units worth checking next. No
+// ranking of units exists yet, so the list is empty: an honest "nothing to suggest", never an
+// invented order.
+func (s *Server) Suggest(ctx context.Context, req *pb.SuggestRequest) (*pb.SuggestResponse, error) {
+	m, r, prob := s.resolve(req.GetModel(), "model")
+	if prob != nil {
+		return nil, prob.status()
+	}
+	if p := contextProblem(ctx); p != nil {
+		return nil, p.status()
+	}
+	if req.GetMaxUnits() < 0 {
+		return nil, badRequest("negative max_units", violation("max_units", "%d; expected 0 (the default) or more", req.GetMaxUnits())).status()
+	}
+	if n := len(req.GetReadings()); n > s.limits.MaxUnitsPerWitness {
+		return nil, badRequest("too many readings", violation("readings", "%d readings; at most %d per witness", n, s.limits.MaxUnitsPerWitness)).status()
+	}
+	rs := make([]model.Reading, len(req.GetReadings()))
+	for i, x := range req.GetReadings() {
+		rs[i] = model.Reading{Unit: x.GetUnit(), Reading: x.GetReading()}
+	}
+	var noSiglum []*pb.FieldViolation
+	if req.GetWitness() == "" {
+		noSiglum = append(noSiglum, violation("witness", "empty siglum; name the witness or fragment"))
+	}
+	if _, _, err := m.Observe(req.GetWitness(), rs, nil); err != nil {
+		var in *model.InputError
+		if errors.As(err, &in) {
+			return nil, fromInputError(in, noSiglum...).status()
+		}
+		return nil, status.Error(codes.Internal, err.Error())
+	}
+	if noSiglum != nil {
+		return nil, badRequest("witness has no siglum", noSiglum...).status()
+	}
+	return &pb.SuggestResponse{Model: r.String(), Suggestions: []*pb.UnitSuggestion{}}, nil
+}
+
+// streamSlot is one witness of a stream on its way through the placing workers.
+type streamSlot struct {
+	index int
+	req   *pb.PlaceStreamRequest
+	m     *model.Model
+	ref   modelstore.Ref
+	prob  *problem
+	resp  *pb.PlaceStreamResponse
+	done  chan struct{}
+}
+
+// pinnedModel is a model reference as resolved once for a whole stream.
+type pinnedModel struct {
+	m    *model.Model
+	ref  modelstore.Ref
+	prob *problem
+}
+
+// PlaceStream places a stream of witnesses. The receiving loop resolves each model reference
+// once per stream, a pool of workers places the witnesses, and a sender answers them in the
+// order they came; at most StreamWindow witnesses are in flight, so a slow reader of answers
+// slows the sender of witnesses rather than filling memory.
+func (s *Server) PlaceStream(stream pb.PlacementService_PlaceStreamServer) error {
+	ctx, cancel := context.WithCancel(stream.Context())
+	defer cancel()
+	window := make(chan *streamSlot, s.limits.StreamWindow)
+	work := make(chan *streamSlot, s.limits.StreamWindow)
+
+	var workers sync.WaitGroup
+	for range s.limits.StreamWorkers {
+		workers.Add(1)
+		go func() {
+			defer workers.Done()
+			for sl := range work {
+				s.placeSlot(ctx, sl)
+				close(sl.done)
+			}
+		}()
+	}
+	sendErr := make(chan error, 1)
+	go func() {
+		var err error
+		for sl := range window {
+			<-sl.done
+			if err == nil {
+				if err = stream.Send(sl.resp); err != nil {
+					cancel()
+				}
+			}
+		}
+		sendErr <- err
+	}()
+
+	recvErr := s.receiveStream(ctx, stream, window, work)
+	close(work)
+	close(window)
+	workers.Wait()
+	if err := <-sendErr; err != nil {
+		return err
+	}
+	return recvErr
+}
+
+// receiveStream reads witnesses until the client closes its side, and returns the error the
+// stream ends with (nil for a clean end).
+func (s *Server) receiveStream(ctx context.Context, stream pb.PlacementService_PlaceStreamServer, window, work chan<- *streamSlot) error {
+	pinned := map[string]pinnedModel{}
+	last := ""
+	for i := 0; ; i++ {
+		req, err := stream.Recv()
+		if err == io.EOF {
+			return nil
+		}
+		if err != nil {
+			return err
+		}
+		if i >= s.limits.MaxWitnessesPerStream {
+			return status.Errorf(codes.ResourceExhausted, "more than %d witnesses in one stream; start another stream for the rest (witness %d, %s, and later ones were not placed)",
+				s.limits.MaxWitnessesPerStream, i, siglumOrNone(req.GetWitness()))
+		}
+		sl := &streamSlot{index: i, req: req, done: make(chan struct{})}
+		ref := req.GetModel()
+		if ref == "" {
+			ref = last
+		}
+		last = ref
+		pm, ok := pinned[ref]
+		if !ok {
+			pm.m, pm.ref, pm.prob = s.resolve(ref, "model")
+			pinned[ref] = pm
+		}
+		sl.m, sl.ref, sl.prob = pm.m, pm.ref, pm.prob
+		select {
+		case window <- sl:
+		case <-ctx.Done():
+			return status.FromContextError(ctx.Err()).Err()
+		}
+		work <- sl
+	}
+}
+
+// placeSlot places one witness of a stream and fills its answer.
+func (s *Server) placeSlot(ctx context.Context, sl *streamSlot) {
+	resp := &pb.PlaceStreamResponse{Index: int32(sl.index), Witness: sl.req.GetWitness()}
+	prob := sl.prob
+	if prob == nil {
+		var p *pb.Placement
+		p, prob = s.placeOne(ctx, sl.m, sl.ref.String(), sl.req.GetWitness(), sl.req.GetReadings())
+		s.metrics.Placed(sl.ref.Name, prob == nil)
+		if prob == nil {
+			resp.Result = &pb.PlaceStreamResponse_Placement{Placement: p}
+		}
+	}
+	if prob != nil {
+		resp.Result = &pb.PlaceStreamResponse_Error{Error: prob.entry()}
+	}
+	sl.resp = resp
+}
