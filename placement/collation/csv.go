@@ -109,6 +109,9 @@ func ReadCSV(r io.Reader, name string) (*Collation, error) {
 	readErr := func(err error) error {
 		var pe *csv.ParseError
 		if errors.As(err, &pe) {
+			if pe.StartLine != pe.Line { // a quote left open: the record's first line says where
+				return fail(pe.StartLine, "", fmt.Errorf("record running on to line %d, column %d: %w%s", pe.Line, pe.Column, pe.Err, csvHint(pe.Err)))
+			}
 			return fail(pe.Line, "", fmt.Errorf("column %d: %w%s", pe.Column, pe.Err, csvHint(pe.Err)))
 		}
 		return fail(0, "", err)

@@ -113,6 +113,7 @@ func TestReadCSVErrors(t *testing.T) {
 		{"too many fields", "unit,reading,witness\nu1,x,A,extra\n", 2, "", []string{"4 fields, expected 3 (unit,reading,witness)"}},
 		{"bare quote", h + "A,u1,a\"b\n", 2, "", []string{"f.csv line 2: column 7: bare \" in non-quoted-field", "must be put in double quotes"}},
 		{"unclosed quote", h + "A,u1,\"ab\n", 2, "", []string{"extraneous or missing \" in quoted-field", "must end with a double quote"}},
+		{"quote left open", h + "A,u1,\"ab\nB,u1,x\nC,u1,y\n", 2, "", []string{"f.csv line 2: record running on to line 4, column 8: extraneous or missing \" in quoted-field"}},
 		{"tab in a value", h + "A,u1,\"a\tb\"\n", 2, "reading", []string{"holds the control character U+0009; a value is one line of text"}},
 		{"line break in a value", h + "A,u1,\"a\nb\"\n", 2, "reading", []string{"control character U+000A"}},
 		{"stray byte-order mark", h + "A,u1,x\n\xEF\xBB\xBFB,u1,x\n", 3, "witness", []string{"byte-order mark (U+FEFF), which is allowed only at the very start of the file"}},
