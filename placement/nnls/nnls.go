@@ -483,7 +483,7 @@ func (s *Solver) SolveGram(G, c, x []float64) error {
 			}
 		}
 	}
-	s.ls.g, s.ls.c, s.ls.k, s.ls.norm, s.ls.beta = G, c, k, norm, beta
+	s.ls.g, s.ls.c, s.ls.k, s.ls.norm, s.ls.beta, s.ls.ny = G, c, k, norm, beta, 0
 	maxIter := s.maxIter
 	if maxIter <= 0 {
 		maxIter = DefaultMaxIter(k)
@@ -501,7 +501,8 @@ type gramLS struct {
 	norm []float64
 	beta float64
 	l    []float64 // l[a*ldl+b], b <= a; ldl = cap
-	y    []float64
+	y    []float64 // y = L^{-1} c_P, valid on positions 0..ny-1
+	ny   int
 }
 
 func (f *gramLS) ldl() int { return len(f.y) }
@@ -529,11 +530,15 @@ func (f *gramLS) factorRow(order []int, p int) bool {
 	return true
 }
 
-func (f *gramLS) grow(order []int, p int) bool { return f.factorRow(order, p) }
+func (f *gramLS) grow(order []int, p int) bool {
+	f.ny = min(f.ny, p) // rows 0..p-1 of L are unchanged, so is y there
+	return f.factorRow(order, p)
+}
 
-func (f *gramLS) shrink(order []int, p int) {}
+func (f *gramLS) shrink(order []int, p int) { f.ny = min(f.ny, p) }
 
 func (f *gramLS) rebuild(order []int, p int) int {
+	f.ny = 0
 	for q := range p {
 		if !f.factorRow(order, q) {
 			return q
@@ -545,7 +550,8 @@ func (f *gramLS) rebuild(order []int, p int) int {
 func (f *gramLS) solve(order []int, p int, z []float64) {
 	ld := f.ldl()
 	y := f.y
-	for a := range p {
+	// Forward substitution L y = c_P, only for the positions added since the last solve.
+	for a := f.ny; a < p; a++ {
 		la := f.l[a*ld : a*ld+a+1]
 		s := f.c[order[a]]
 		for b := range a {
@@ -553,6 +559,7 @@ func (f *gramLS) solve(order []int, p int, z []float64) {
 		}
 		y[a] = s / la[a]
 	}
+	f.ny = p
 	for a := p - 1; a >= 0; a-- {
 		s := y[a]
 		for b := a + 1; b < p; b++ {
