@@ -1,0 +1,250 @@
+package client
+
+import (
+	"context"
+	"crypto/sha256"
+	"encoding/hex"
+	"errors"
+	"fmt"
+	"io"
+
+	"google.golang.org/grpc/codes"
+
+	pb "strayleaf/proto/strayleaf/v1"
+)
+
+// Reading is a witness's reading at one variation unit; lacunae are left out.
+type Reading struct {
+	Unit    string `json:"unit"`
+	Reading string `json:"reading"`
+}
+
+// Witness is a partial witness to place.
+type Witness struct {
+	Siglum   string
+	Readings []Reading
+}
+
+// GroupShare is one group's share of a placement.
+type GroupShare struct {
+	Group string  `json:"group"`
+	Share float64 `json:"share"`
+}
+
+// Placement is where a witness falls among a model's groups, with the field names of
+// `strayleaf place --json`.
+type Placement struct {
+	Witness            string       `json:"witness"`
+	Model              string       `json:"model"`
+	BestGroup          string       `json:"best_group"`
+	Groups             []GroupShare `json:"groups"`
+	Confidence         float64      `json:"confidence"`
+	CoveredUnits       int          `json:"covered_units"`
+	UsedUnits          int          `json:"used_units"`
+	UnknownReadings    []string     `json:"unknown_readings"`
+	UninformativeUnits []string     `json:"uninformative_units"`
+	RelativeResidual   float64      `json:"relative_residual"`
+}
+
+func nonNil(s []string) []string {
+	if s == nil {
+		return []string{}
+	}
+	return s
+}
+
+func placementFrom(p *pb.Placement) *Placement {
+	out := &Placement{Witness: p.GetWitness(), Model: p.GetModel(), BestGroup: p.GetBestGroup(), Confidence: p.GetConfidence(),
+		CoveredUnits: int(p.GetCoveredUnits()), UsedUnits: int(p.GetUsedUnits()), UnknownReadings: nonNil(p.GetUnknownReadings()),
+		UninformativeUnits: nonNil(p.GetUninformativeUnits()), RelativeResidual: p.GetRelativeResidual(),
+		Groups: make([]GroupShare, len(p.GetGroups()))}
+	for i, g := range p.GetGroups() {
+		out.Groups[i] = GroupShare{Group: g.GetGroup(), Share: g.GetShare()}
+	}
+	return out
+}
+
+func readingsProto(rs []Reading) []*pb.WitnessReading {
+	out := make([]*pb.WitnessReading, len(rs))
+	backing := make([]pb.WitnessReading, len(rs))
+	for i, r := range rs {
+		backing[i].Unit, backing[i].Reading = r.Unit, r.Reading
+		out[i] = &backing[i]
+	}
+	return out
+}
+
+// Place places one partial witness against the model a reference names.
+func (c *Client) Place(ctx context.Context, model, witness string, readings []Reading) (*Placement, error) {
+	resp, err := c.places.Place(ctx, &pb.PlaceRequest{Model: model, Witness: witness, Readings: readingsProto(readings)})
+	if err != nil {
+		return nil, c.wrap("place "+witness, err)
+	}
+	return placementFrom(resp.GetPlacement()), nil
+}
+
+// StreamResult is the answer for one witness of PlaceAll: a placement or its own error.
+type StreamResult struct {
+	// Index is the witness's position in the input.
+	Index     int
+	Witness   string
+	Placement *Placement
+	// Err says why this witness was not placed (Code, Message, Violations); the stream goes on.
+	Err *Error
+}
+
+// PlaceAll places many witnesses over one stream, all against the model reference (resolved
+// once by the server, so all get the same version). fn is called for each answer, in input
+// order; an error from fn ends the stream. Witnesses are sent while answers are read.
+func (c *Client) PlaceAll(ctx context.Context, model string, witnesses []Witness, fn func(StreamResult) error) error {
+	ctx, cancel := context.WithCancel(ctx)
+	defer cancel()
+	stream, err := c.places.PlaceStream(ctx)
+	if err != nil {
+		return c.wrap("place stream", err)
+	}
+	sendErr := make(chan error, 1)
+	go func() {
+		for i, w := range witnesses {
+			req := &pb.PlaceStreamRequest{Witness: w.Siglum, Readings: readingsProto(w.Readings)}
+			if i == 0 {
+				req.Model = model
+			}
+			if err := stream.Send(req); err != nil {
+				// The receiving side sees the stream's real error.
+				sendErr <- nil
+				return
+			}
+		}
+		sendErr <- stream.CloseSend()
+	}()
+	for n := 0; ; n++ {
+		resp, err := stream.Recv()
+		if err == io.EOF {
+			if n != len(witnesses) {
+				return fmt.Errorf("place stream: strayleafd at %s answered %d of %d witnesses", c.addr, n, len(witnesses))
+			}
+			return c.wrap("place stream", <-sendErr)
+		}
+		if err != nil {
+			return c.wrap("place stream", err)
+		}
+		r := StreamResult{Index: int(resp.GetIndex()), Witness: resp.GetWitness()}
+		if p := resp.GetPlacement(); p != nil {
+			r.Placement = placementFrom(p)
+		} else {
+			e := resp.GetError()
+			r.Err = &Error{Op: "place " + resp.GetWitness(), Addr: c.addr, Code: codes.Code(e.GetCode()), Message: e.GetMessage()}
+			for _, v := range e.GetFieldViolations() {
+				r.Err.Violations = append(r.Err.Violations, FieldViolation{Field: v.GetField(), Description: v.GetDescription()})
+			}
+		}
+		if err := fn(r); err != nil {
+			return err
+		}
+	}
+}
+
+// Suggestion is a unit worth checking next.
+type Suggestion struct {
+	Unit string  `json:"unit"`
+	Gain float64 `json:"gain"`
+}
+
+// Suggest asks which units are worth checking next for a partial witness (at most max; 0 for
+// the server's default). It returns the version used. The list is empty while the server has
+// no ranking of units.
+func (c *Client) Suggest(ctx context.Context, model, witness string, readings []Reading, max int) (string, []Suggestion, error) {
+	resp, err := c.places.Suggest(ctx, &pb.SuggestRequest{Model: model, Witness: witness, Readings: readingsProto(readings), MaxUnits: int32(max)})
+	if err != nil {
+		return "", nil, c.wrap("suggest "+witness, err)
+	}
+	out := make([]Suggestion, 0, len(resp.GetSuggestions()))
+	for _, s := range resp.GetSuggestions() {
+		out = append(out, Suggestion{Unit: s.GetUnit(), Gain: s.GetGain()})
+	}
+	return resp.GetModel(), out, nil
+}
+
+// ModelSummary is one model name in the store.
+type ModelSummary struct {
+	Name          string         `json:"name"`
+	Versions      []int          `json:"versions"`
+	LatestVersion int            `json:"latest_version"`
+	Aliases       map[string]int `json:"aliases"`
+}
+
+// ListModels lists the models of the server's store by name.
+func (c *Client) ListModels(ctx context.Context) ([]ModelSummary, error) {
+	resp, err := c.models.ListModels(ctx, &pb.ListModelsRequest{})
+	if err != nil {
+		return nil, c.wrap("list models", err)
+	}
+	out := make([]ModelSummary, 0, len(resp.GetModels()))
+	for _, m := range resp.GetModels() {
+		s := ModelSummary{Name: m.GetName(), LatestVersion: int(m.GetLatestVersion()), Aliases: map[string]int{}}
+		for _, v := range m.GetVersions() {
+			s.Versions = append(s.Versions, int(v))
+		}
+		for a, v := range m.GetAliases() {
+			s.Aliases[a] = int(v)
+		}
+		out = append(out, s)
+	}
+	return out, nil
+}
+
+// GetModel describes the version a reference resolves to: metadata, groups with their leading
+// witnesses and profile readings, and units with their readings.
+func (c *Client) GetModel(ctx context.Context, model string) (*pb.GetModelResponse, error) {
+	resp, err := c.models.GetModel(ctx, &pb.GetModelRequest{Model: model})
+	if err != nil {
+		return nil, c.wrap("describe "+model, err)
+	}
+	return resp, nil
+}
+
+// PublishModel stores bundle as the next version of model name and, if alias is not empty,
+// moves the alias to it in the same step. It needs a publish token.
+func (c *Client) PublishModel(ctx context.Context, name string, bundle []byte, note, alias string) (Ref, error) {
+	resp, err := c.models.PublishModel(ctx, &pb.PublishModelRequest{Name: name, Bundle: bundle, Note: note, Alias: alias})
+	if err != nil {
+		return Ref{}, c.wrap("publish "+name, err)
+	}
+	return ParseRef(resp.GetModel())
+}
+
+// SetAlias points name@alias at version. It needs a publish token.
+func (c *Client) SetAlias(ctx context.Context, name, alias string, version int) (Ref, error) {
+	resp, err := c.models.SetAlias(ctx, &pb.SetAliasRequest{Name: name, Alias: alias, Version: int32(version)})
+	if err != nil {
+		return Ref{}, c.wrap(fmt.Sprintf("set %s@%s", name, alias), err)
+	}
+	return ParseRef(resp.GetModel())
+}
+
+// DeleteModelVersion removes name@version, which no alias may point at. It needs an admin
+// token.
+func (c *Client) DeleteModelVersion(ctx context.Context, name string, version int) error {
+	_, err := c.models.DeleteModelVersion(ctx, &pb.DeleteModelVersionRequest{Name: name, Version: int32(version)})
+	return c.wrap("delete "+VersionRef(name, version), err)
+}
+
+// ErrBundleChecksum is returned by ExportModel when the bytes received do not hash to the
+// SHA-256 the server recorded.
+var ErrBundleChecksum = errors.New("exported bundle does not match its recorded SHA-256")
+
+// ExportModel returns the bundle of the version a reference resolves to, byte for byte as
+// published, checked against its recorded SHA-256. It needs an admin token.
+func (c *Client) ExportModel(ctx context.Context, model string) ([]byte, Ref, error) {
+	resp, err := c.models.ExportModel(ctx, &pb.ExportModelRequest{Model: model})
+	if err != nil {
+		return nil, Ref{}, c.wrap("export "+model, err)
+	}
+	sum := sha256.Sum256(resp.GetBundle())
+	if hex.EncodeToString(sum[:]) != resp.GetBundleSha256() {
+		return nil, Ref{}, fmt.Errorf("export %s: %w", resp.GetModel(), ErrBundleChecksum)
+	}
+	r, err := ParseRef(resp.GetModel())
+	return resp.GetBundle(), r, err
+}
