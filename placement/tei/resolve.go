@@ -71,6 +71,7 @@ func (p *parser) resolve() (*collation.Collation, *Report, error) {
 			rs.targets[i] = unknownTarget
 		}
 	}
+	// Witness i of the parse is witness i of the collation (sigla are unique).
 	for _, w := range p.wits {
 		rs.b.AddWitness(w.siglum)
 	}
@@ -370,12 +371,11 @@ func (rs *resolver) appEnd(a int32) error {
 		case lv.detailApp[w] == stamp:
 			l.Detail++
 		default:
-			sig := p.wits[w].siglum
-			if err := rs.b.Add(sig, id, p.rdgs[rs.parentOf[r]].label, app.section); err != nil {
+			if err := rs.b.AddCell(int(w), u, p.rdgs[rs.parentOf[r]].label); err != nil {
 				return p.errAt(p.rdgs[r].line, p.rdgs[r].elemName, err)
 			}
 			if m := rs.mergeOf[r]; m >= 0 {
-				rs.rep.Merges[m].Witnesses = append(rs.rep.Merges[m].Witnesses, sig)
+				rs.rep.Merges[m].Witnesses = append(rs.rep.Merges[m].Witnesses, p.wits[w].siglum)
 			}
 		}
 	}
@@ -388,7 +388,7 @@ func (rs *resolver) appEnd(a int32) error {
 			if lv.citeApp[w] == stamp || rs.lacunose[w] || lv.detailApp[w] == stamp {
 				continue
 			}
-			if err := rs.b.Add(p.wits[w].siglum, id, lem.label, app.section); err != nil {
+			if err := rs.b.AddCell(w, u, lem.label); err != nil {
 				return p.errAt(lem.line, "lem", err)
 			}
 		}
