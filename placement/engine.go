@@ -29,12 +29,17 @@
 //
 // adding the blocks of the covered units, or, when the witness covers more than half of the
 // units that have rows, subtracting from G the blocks of those it lacks; then solves the
-// normal-equations NNLS with nnls.Solver.SolveGram. The cost is O(min(|C|, U - |C|) k^2 + k^3)
-// with U the units that have rows, and nothing is allocated per placement.
+// normal-equations NNLS with nnls.Solver.SolveGram. With U the units that have rows, the cost
+// is O(|C| k + min(|C|, U - |C|) k^2 + k^3), plus an O(U) scan for the missing units when
+// subtracting; nothing is allocated per placement. The weighted rows w_r W[r,:] and w_r^2 are
+// precomputed too.
 //
 // The residual needs no pass over the rows:
 //
-//	||W_C h - v_C||^2 = h^T G_C h - 2 h^T c_C + v_C^T v_C.
+//	||W_C h - v_C||^2 = h^T G_C h - 2 h^T c_C + v_C^T v_C,
+//
+// computed in O(k^2) with an absolute rounding error of a few eps * ||v_C||^2 (Fit.Residual,
+// Workspace.ResidualAt).
 package placement
 
 import (
@@ -232,8 +237,9 @@ func (e *Engine) Place(obs []Observation, ws *Workspace) (Fit, error) {
 		ws.gen = 1
 	}
 	gen := ws.gen
-	used, unknown := 0, 0
-	offs, rows := ws.offs[:0], ws.rows[:0]
+	used, unknown, nk := 0, 0, 0
+	vv := 0.0
+	offs, rows := ws.offs[:cap(ws.offs)], ws.rows[:cap(ws.rows)]
 	for i, o := range obs {
 		if o.Unit < 0 || o.Unit >= len(e.unitRows) {
 			return Fit{}, fmt.Errorf("placement: observation %d: unit %d is out of range [0, %d)", i, o.Unit, len(e.unitRows))
@@ -247,15 +253,19 @@ func (e *Engine) Place(obs []Observation, ws *Workspace) (Fit, error) {
 			return Fit{}, fmt.Errorf("placement: observation %d: row %d is not a reading of unit %d (rows [%d, %d), or -1 for an unknown reading)", i, o.Row, o.Unit, lo, hi)
 		}
 		if hi > lo {
+			// Units are distinct and have rows, so used < len(e.rowUnits) = cap(offs).
+			offs[used] = e.block[o.Unit] * int32(e.tri)
 			used++
-			offs = append(offs, e.block[o.Unit]*int32(e.tri))
 			if o.Row < 0 {
 				unknown++
 			} else {
-				rows = append(rows, int32(o.Row*e.k))
+				rows[nk] = int32(o.Row * e.k)
+				nk++
+				vv += e.w2[o.Row]
 			}
 		}
 	}
+	offs, rows = offs[:used], rows[:nk]
 	if used == 0 {
 		return Fit{}, fmt.Errorf("%w (%d units observed, none with readings in the model)", ErrNoCoverage, len(obs))
 	}
@@ -280,13 +290,9 @@ func (e *Engine) Place(obs []Observation, ws *Workspace) (Fit, error) {
 		}
 	}
 
-	// c_C = sum of w_r W[r,:] over the known readings, and v_C^T v_C.
+	// c_C = sum of w_r W[r,:] over the known readings (v_C^T v_C was summed above).
 	c := ws.c
 	sumRows(c, e.wv, rows)
-	vv := 0.0
-	for _, r := range rows {
-		vv += e.w2[int(r)/k]
-	}
 
 	// Unpack G_C to a full symmetric matrix. After subtraction a column whose covered entries
 	// are all zero keeps a rounding residue of the size of (missing+1) * eps * G_jj: set such a
