@@ -12,10 +12,12 @@ import (
 	"strayleaf/placement/collation"
 )
 
-// The expectations below follow the TEI P5 Guidelines (from memory; section numbers may be
+// The expectations below follow the TEI P5 Guidelines (from memory; the section numbers may be
 // off): chapter 12 "Critical Apparatus" for the apparatus elements, chapter 3 (core elements)
 // for <gap>, chapter 4 "Default Text Structure" for <div>, and chapter 1 "The TEI
-// Infrastructure" for the TEI namespace and the global xml:id.
+// Infrastructure" for the TEI namespace and the global xml:id and @n. Merging by @type, and
+// which markers make a cell a lacuna, follow this package's documented rules (common practice
+// treats a witness without text at a unit as not counted there).
 
 // wantUnit is one unit of an expected collation. cells has one character per witness, in
 // witness order: the reading's index, or "-" for a lacuna.
@@ -63,35 +65,47 @@ func checkCollation(t *testing.T, c *collation.Collation, witnesses []string, un
 var mergeOrthNonsense = Options{TypeActions: map[string]Action{"orthographic": Merge, "nonsense": Merge}}
 
 // apparatusWitnesses and apparatusUnits are what testdata/apparatus.xml (an invented text)
-// holds, worked out by hand from the rules in the package doc.
+// holds, worked out by hand from the rules in the package doc. Each construct is named with its
+// place in the TEI P5 Guidelines; all these references are from memory.
+//
+// <listWit> and <witness xml:id> (12.1.4 "Witness Information", from memory): the eight
+// witnesses in declaration order, the nested groups beta, gamma and delta (inside gamma) taking
+// no place of their own.
 var apparatusWitnesses = []string{"K", "L", "M1", "M2", "N", "P", "Pc", "Q"}
 
 var apparatusUnits = []wantUnit{
 	//                                                                         K L M1 M2 N P Pc Q
-	// <app xml:id>; <lem>/<rdg> with @wit (12.1.1-12.1.2); "#beta" and "#delta" point to nested
-	// <listWit> groups (12.1.4); white space in a reading collapses; Q is named nowhere: absent.
+	// <app xml:id> (12.1.1 "The Apparatus Entry", from memory); <lem>, <rdg> and @wit (12.1.2
+	// "Readings", from memory); "#beta" and "#delta" point to nested <listWit> groups (12.1.4,
+	// from memory); white space in a reading collapses; Q is named nowhere: absent.
 	{"u1", "1", []string{"the salt-reeve rode", "a salt-reeve rode"}, "0000111-"},
-	// <app n> gives the id; bare id "L"; @type orthographic and nonsense merge into the <lem>;
-	// Pc's "over the fen" is the lem's reading; a witDetail of type "correction" is only a note.
+	// <app n> gives the id (@n, a global attribute, 1.3.1.1, from memory); bare id "L"; @type
+	// orthographic and nonsense (12.1.2, from memory) merge into the <lem>; Pc's "over the fen"
+	// is the lem's reading; a <witDetail> of type "correction" (12.1.4, from memory) is a note.
 	{"2", "1", []string{"over the fen", "across the fen"}, "0000010-"},
-	// No id: generated; <rdgGrp> (12.1.3, subvariation): N's orthographic reading merges into the
-	// group's first substantive reading; the second group's @type applies to Pc's reading but not
-	// to P's, which has its own; <hi> text counts, <note> text does not.
+	// No id: generated. <rdgGrp> (12.1.3 "Indicating Subvariation in Apparatus Entries", from
+	// memory): N's orthographic reading merges into its group's first substantive reading; the
+	// second group's @type applies to Pc's reading but not to P's, which has its own; <hi> text
+	// counts, <note> text (12.1.1, from memory) does not.
 	{"app-3", "1", []string{"grey gulls", "white gulls", "grey mews"}, "0011122-"},
-	// An empty reading is an omission; @n labels a reading; an element in another namespace
-	// inside a reading is left out of its text.
+	// An empty <rdg/> is an omission; @n labels a reading; an element in another namespace
+	// (the TEI namespace: chapter 1 "The TEI Infrastructure", from memory) is left out.
 	{"u4", "1", []string{"and sang", "om.", "sang-loudly"}, "0100122-"},
-	// <lacunaStart/> after text inside N's reading (12.1.5, fragmentary witnesses): a lacuna,
-	// and N stays lacunose; <gap> (ch. 3) in P's reading: a lacuna. Their readings stay, with no
-	// witness.
+	// <div n="2"> (4.1 "Divisions of the Body", from memory) gives the section. <lacunaStart/>
+	// after text inside N's reading (12.1.5 "Fragmentary Witnesses", from memory): a lacuna, and
+	// N stays lacunose. <gap> in P's reading (3.5.3 "Additions, Deletions, and Omissions", from
+	// memory): a lacuna. Their readings stay, with no witness.
 	{"u5", "2", []string{"at the ford", "by the ford", "by the", "the ford"}, "0011--00"},
-	// N is named while lacunose: a lacuna. Then <lacunaStart wit="#Q"/> stands in the text.
+	// N is named while lacunose: a lacuna. Then <lacunaStart wit="#Q"/> (12.1.5, from memory)
+	// stands in the running text.
 	{"u6", "2", []string{"the water", "the watter", "the waters"}, "0000-222"},
-	// Nested <div n="b"> (ch. 4): section "2.b". <lacunaEnd/> before N's text: N is extant and
-	// reads "ran chill"; witDetail type "damage" (12.1.4): P is a lacuna; Q is lacunose, unnamed.
+	// Nested <div n="b"> (4.1, from memory): section "2.b". <lacunaEnd/> (12.1.5, from memory)
+	// before N's text: N is extant and reads "ran chill". <witDetail type="damage"> (12.1.4,
+	// from memory): P is a lacuna. Q is lacunose and named nowhere.
 	{"u7", "2.b", []string{"ran cold", "ran chill"}, "00001-0-"},
 	// <lacunaEnd wit="#Q"/> before the text of Q's reading: Q is extant. The <app> nested in the
-	// lem (allowed by parallel segmentation, 12.2.3) is left out of the lem's text...
+	// lem (allowed by "The Parallel Segmentation Method", 12.2.3, from memory) is left out of the
+	// lem's text...
 	{"u8", "2.b", []string{"beneath", "under stone"}, "00001001"},
 	// ...and is a unit of its own, after the one that holds it.
 	{"u8a", "2.b", []string{"stone", "stones"}, "0001-11-"},

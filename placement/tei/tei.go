@@ -31,6 +31,9 @@
 //     reading of the unit; readings are kept in document order.
 //   - A witness may be named in only one reading element of an <app>, and only once in it
 //     (directly or through a group); otherwise a *DuplicateWitnessError is returned.
+//   - Witnesses may be declared anywhere in the document, before or after the apparatus: @wit
+//     pointers are resolved once the whole document is read. A <variantEncoding> with a
+//     @method other than "parallel-segmentation" is refused.
 //
 // # Reading types and merging
 //
@@ -57,9 +60,9 @@
 //
 //   - the witness is named in no reading element of the app (Report.Lacunae.Absent);
 //   - lacunaStart/lacunaEnd (Report.Lacunae.Marked): a <lacunaStart wit="#X"/> makes X lacunose,
-//     a <lacunaEnd wit="#X"/> makes it extant again; <witEnd/> and <witStart/> act the same. Inside
-//     a reading element the marker may leave out @wit: it then applies to the element's
-//     witnesses. A witness named in a reading element is lacunose there if it is lacunose at the
+//     a <lacunaEnd wit="#X"/> makes it extant again; <witEnd/> acts as lacunaStart and
+//     <witStart/> as lacunaEnd (a fragment's text ends or begins). Inside a reading element the
+//     marker may leave out @wit: it then applies to the element's witnesses. A witness named in a reading element is lacunose there if it is lacunose at the
 //     end of the element, or if a marker for it comes after some of the element's text (the
 //     reading is then incomplete). So <rdg wit="#X"><lacunaStart/></rdg> is a lacuna and X stays
 //     lacunose until a lacunaEnd; <rdg wit="#X"><lacunaEnd/>word</rdg> is X's full reading "word".
@@ -265,7 +268,8 @@ type Report struct {
 	Lacunae LacunaCounts
 	// MergedByType counts merged reading elements per @type.
 	MergedByType map[string]int
-	// Merges lists every merge in document order.
+	// Merges lists every merge, app by app in the order the apps close (so a nested app's
+	// merges come before those of the app holding it), in document order within an app.
 	Merges []MergedReading
 	// GeneratedIDs lists the units whose id was generated.
 	GeneratedIDs []GeneratedID
@@ -392,6 +396,9 @@ func (e *DuplicateWitnessError) Error() string {
 }
 
 // Read reads a TEI parallel-segmentation apparatus from r; name labels errors and the report.
+// A problem in the input is an *Error giving the line and element, wrapping the cause (an
+// *UnknownWitnessError, *DuplicateWitnessError, *LimitError, ErrDoctype, ErrNoReadings, an
+// *xml.SyntaxError, or a plain description); a failed read returns no collation and no report.
 func Read(r io.Reader, name string, opt Options) (*collation.Collation, *Report, error) {
 	o, err := opt.withDefaults()
 	if err != nil {
