@@ -191,9 +191,9 @@ func TestOpenAPIDocument(t *testing.T) {
 		t.Fatalf("/openapi.json: %d %s", resp.status, resp.header.Get("Content-Type"))
 	}
 	var doc struct {
-		Swagger     string                            `json:"swagger"`
-		Info        map[string]any                    `json:"info"`
-		Paths       map[string]map[string]any         `json:"paths"`
+		Swagger     string                                         `json:"swagger"`
+		Info        map[string]any                                 `json:"info"`
+		Paths       map[string]map[string]any                      `json:"paths"`
 		Definitions map[string]struct{ Properties map[string]any } `json:"definitions"`
 	}
 	resp.decode(t, &doc)
