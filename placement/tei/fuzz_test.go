@@ -24,6 +24,12 @@ func FuzzRead(f *testing.F) {
 		`<div n="1"><app n="1"><rdgGrp type="orth"><rdg wit="#B">a</rdg><rdg wit="#C" type="s">b</rdg></rdgGrp><lem/></app></div>`,
 		`<lacunaStart wit="#B"/><app><rdg wit="A C">y<lacunaEnd wit="#B"/><gap/></rdg><witDetail wit="#g" type="damage"/></app>`,
 		`<app xml:id="o"><lem wit="#A #B">p <app xml:id="i"><rdg wit="#A">q</rdg><rdg wit="#B"><witStart/>r</rdg></app></lem><rdg wit="#C" n="&lt;&#233;&gt;"/></app>`,
+		`<div n="1"><div n="a"><app><rdg wit="#A">a<lacunaStart/></rdg><rdg wit="#B #C"/></app></div></div><app n="app-1"><lem>z</lem></app>`,
+		`<app xml:id="u"><lem wit="#A" type="orth">a</lem><rdgGrp><rdg wit="#B">b</rdg><rdgGrp type="orth"><rdg wit="#C">bb</rdg></rdgGrp></rdgGrp></app>`,
+		`<app xml:id="u1"><rdg wit="#A #B">x</rdg><rdg wit="#C">x<lacunaStart/></rdg></app><app xml:id="u2"><rdg wit="#A #B #C">y <lacunaEnd wit="#C"/>z</rdg></app>`,
+		`<app xml:id="u1"><witDetail wit="#B" type="illegible"/><rdg wit="#A #B">x</rdg><rdg wit="#C">y<witDetail type="lacuna">torn</witDetail></rdg></app>`,
+		`<app xml:id="u1"><lem wit="#A #B">x</lem><rdg wit="#B">y</rdg></app>`,
+		`<app xml:id="u1"><rdg wit="#A">x<rdg wit="#B">y</rdg></rdg></app>`,
 	} {
 		f.Add([]byte(doc(wits, body)))
 	}
