@@ -87,8 +87,7 @@ type Engine struct {
 	weight   []float64
 	wv       []float64 // weighted rows w_r W[r,:], row-major
 	w2       []float64 // w_r^2
-	unitRows [][2]int
-	block    []int32   // block[u]: index of unit u's Gram block, or -1 for a unit with no rows
+	units    []unitInfo
 	blocks   []float64 // packed upper triangles, tri entries each
 	full     []float64 // packed upper triangle of the full Gram W^T W
 	rowUnits []int32   // units that have rows, in order
@@ -113,7 +112,10 @@ func NewEngine(W *mat.Dense, unitRows [][2]int, rowWeights []float64) (*Engine, 
 	}
 	e := &Engine{
 		k: k, nRows: nRows, w: make([]float64, nRows*k), weight: make([]float64, nRows),
-		unitRows: make([][2]int, len(unitRows)), block: make([]int32, len(unitRows)), tri: k * (k + 1) / 2,
+		units: make([]unitInfo, len(unitRows)), tri: k * (k + 1) / 2,
+	}
+	if nRows*k > math.MaxInt32 || len(unitRows)*e.tri > math.MaxInt32 {
+		return nil, fmt.Errorf("placement: a model of %d units, %d rows and %d groups is too large (offsets are 32-bit)", len(unitRows), nRows, k)
 	}
 	for r := range nRows {
 		for j := range k {
@@ -129,29 +131,25 @@ func NewEngine(W *mat.Dense, unitRows [][2]int, rowWeights []float64) (*Engine, 
 		}
 		e.weight[r] = wt
 	}
-	copy(e.unitRows, unitRows)
 	prevEnd := 0
 	for u, ur := range unitRows {
 		lo, hi := ur[0], ur[1]
 		if lo < 0 || hi < lo || hi > nRows {
 			return nil, fmt.Errorf("placement: unit %d has row range [%d, %d); expected 0 <= start <= end <= %d", u, lo, hi, nRows)
 		}
+		e.units[u] = unitInfo{lo: int32(lo), hi: int32(hi), off: -1}
 		if lo == hi {
-			e.block[u] = -1
 			continue
 		}
 		if lo < prevEnd {
 			return nil, fmt.Errorf("placement: unit %d has row range [%d, %d), overlapping or before the previous unit's rows (which end at %d)", u, lo, hi, prevEnd)
 		}
 		prevEnd = hi
-		e.block[u] = int32(len(e.rowUnits))
+		e.units[u].off = int32(len(e.rowUnits) * e.tri)
 		e.rowUnits = append(e.rowUnits, int32(u))
 	}
 	if len(e.rowUnits) == 0 {
 		return nil, errors.New("placement: no unit has rows")
-	}
-	if len(e.rowUnits)*e.tri > math.MaxInt32 || nRows*k > math.MaxInt32 {
-		return nil, fmt.Errorf("placement: a model of %d units with rows, %d rows and %d groups is too large (offsets are 32-bit)", len(e.rowUnits), nRows, k)
 	}
 	e.blocks = make([]float64, len(e.rowUnits)*e.tri)
 	e.full = make([]float64, e.tri)
@@ -188,13 +186,17 @@ func NewEngine(W *mat.Dense, unitRows [][2]int, rowWeights []float64) (*Engine, 
 func (e *Engine) K() int { return e.k }
 
 // NumUnits returns the number of units (len(unitRows)).
-func (e *Engine) NumUnits() int { return len(e.unitRows) }
+func (e *Engine) NumUnits() int { return len(e.units) }
 
 // NumRows returns the number of rows of W.
 func (e *Engine) NumRows() int { return e.nRows }
 
 // UnitRows returns the row range [start, end) of unit u.
-func (e *Engine) UnitRows(u int) (start, end int) { return e.unitRows[u][0], e.unitRows[u][1] }
+func (e *Engine) UnitRows(u int) (start, end int) { return int(e.units[u].lo), int(e.units[u].hi) }
+
+// unitInfo is a unit's row range and the offset of its Gram block in Engine.blocks (-1 if the
+// unit has no rows), kept together so that a placement touches one place per observation.
+type unitInfo struct{ lo, hi, off int32 }
 
 // Workspace is the scratch memory of placements: one per goroutine, reused across calls.
 type Workspace struct {
@@ -214,7 +216,7 @@ type Workspace struct {
 // NewWorkspace returns a Workspace for placements with e.
 func (e *Engine) NewWorkspace() *Workspace {
 	return &Workspace{
-		e: e, mark: make([]uint32, len(e.unitRows)), packed: make([]float64, e.tri),
+		e: e, mark: make([]uint32, len(e.units)), packed: make([]float64, e.tri),
 		offs: make([]int32, 0, len(e.rowUnits)), rows: make([]int32, 0, len(e.rowUnits)),
 		g: make([]float64, e.k*e.k), c: make([]float64, e.k), h: make([]float64, e.k),
 		solver: nnls.NewSolver(e.k),
@@ -241,20 +243,21 @@ func (e *Engine) Place(obs []Observation, ws *Workspace) (Fit, error) {
 	vv := 0.0
 	offs, rows := ws.offs[:cap(ws.offs)], ws.rows[:cap(ws.rows)]
 	for i, o := range obs {
-		if o.Unit < 0 || o.Unit >= len(e.unitRows) {
-			return Fit{}, fmt.Errorf("placement: observation %d: unit %d is out of range [0, %d)", i, o.Unit, len(e.unitRows))
+		if o.Unit < 0 || o.Unit >= len(e.units) {
+			return Fit{}, fmt.Errorf("placement: observation %d: unit %d is out of range [0, %d)", i, o.Unit, len(e.units))
 		}
 		if ws.mark[o.Unit] == gen {
 			return Fit{}, fmt.Errorf("placement: observation %d: unit %d is given more than once", i, o.Unit)
 		}
 		ws.mark[o.Unit] = gen
-		lo, hi := e.unitRows[o.Unit][0], e.unitRows[o.Unit][1]
+		ui := e.units[o.Unit]
+		lo, hi := int(ui.lo), int(ui.hi)
 		if o.Row != -1 && (o.Row < lo || o.Row >= hi) {
 			return Fit{}, fmt.Errorf("placement: observation %d: row %d is not a reading of unit %d (rows [%d, %d), or -1 for an unknown reading)", i, o.Row, o.Unit, lo, hi)
 		}
 		if hi > lo {
 			// Units are distinct and have rows, so used < len(e.rowUnits) = cap(offs).
-			offs[used] = e.block[o.Unit] * int32(e.tri)
+			offs[used] = ui.off
 			used++
 			if o.Row < 0 {
 				unknown++
