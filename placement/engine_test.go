@@ -303,8 +303,9 @@ func TestPlaceSpecialWitnesses(t *testing.T) {
 		t.Fatal(err)
 	}
 	ws := e.NewWorkspace()
-	// Agreeing with group 0 at both units: h = (w_0 at unit 0 ... ) by least squares on
-	// rows (1,0)->2, (0,1)->0, (1,0)->1, (0,1)->0: h_0 = (2+1)/2, h_1 = 0.
+	// Reading a at both units (worked by hand): the rows (1,0), (0,1), (1,0), (0,1) are to
+	// reproduce v = (2, 0, 1, 0), so h_0 = (2+1)/2 = 1.5, h_1 = 0, residual 0.5^2 + 0.5^2 = 0.5
+	// and ||v||^2 = 5. The unit without rows (1) counts as covered but not used.
 	fit, err := e.Place([]Observation{{0, 0}, {2, 2}, {1, -1}}, ws)
 	if err != nil {
 		t.Fatal(err)
