@@ -123,6 +123,9 @@ func TestTypedErrors(t *testing.T) {
 	if _, _, err := Read(strings.NewReader(""), "x", Options{TypeActions: map[string]Action{"t": 7}}); err == nil || !strings.Contains(err.Error(), `type "t" has action 7`) {
 		t.Errorf("unknown action: err = %v", err)
 	}
+	if _, _, err := Read(strings.NewReader(""), "x", Options{TypeActions: map[string]Action{"": Merge}}); err == nil || !strings.Contains(err.Error(), "empty type") {
+		t.Errorf("empty type: err = %v", err)
+	}
 	if _, _, err := ReadFile("testdata/no-such-file.xml", Options{}); err == nil || !strings.Contains(err.Error(), "no-such-file.xml") {
 		t.Errorf("missing file: err = %v", err)
 	}

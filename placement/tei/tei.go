@@ -228,6 +228,9 @@ func (o Options) withDefaults() (Options, error) {
 		}
 	}
 	for t, a := range o.TypeActions {
+		if t == "" {
+			return o, fmt.Errorf("tei options: TypeActions has an empty type; expected @type values such as \"orthographic\"")
+		}
 		if a != Keep && a != Merge {
 			return o, fmt.Errorf("tei options: type %q has action %d; expected Keep or Merge", t, int(a))
 		}
