@@ -112,16 +112,25 @@ func writeError(w http.ResponseWriter, code int, st *status.Status) {
 }
 
 // errorHandler is the gateway's default error answer ({"code","message","details"} with the
-// HTTP status of the gRPC code), with a WWW-Authenticate challenge on 401 and a body too large
-// for the limit answered 413.
+// HTTP status of the gRPC code), with a proper Bearer challenge on 401 (RFC 6750 section 3; the
+// default handler puts the status message there) and a body too large for the limit answered
+// 413.
 func errorHandler(ctx context.Context, mux *runtime.ServeMux, m runtime.Marshaler, w http.ResponseWriter, r *http.Request, err error) {
 	st, _ := status.FromError(err)
 	switch {
 	case st.Code() == codes.Unauthenticated:
-		w.Header().Set("WWW-Authenticate", `Bearer realm="strayleaf"`)
+		w = challengeWriter{w}
 	case strings.Contains(st.Message(), "http: request body too large"):
 		writeError(w, http.StatusRequestEntityTooLarge, status.New(codes.ResourceExhausted, "request body too large"))
 		return
 	}
 	runtime.DefaultHTTPErrorHandler(ctx, mux, m, w, r, err)
+}
+
+// challengeWriter sets the WWW-Authenticate challenge just before the header is written.
+type challengeWriter struct{ http.ResponseWriter }
+
+func (w challengeWriter) WriteHeader(code int) {
+	w.Header().Set("WWW-Authenticate", `Bearer realm="strayleaf"`)
+	w.ResponseWriter.WriteHeader(code)
 }
