@@ -49,7 +49,10 @@ func TestAuthRolesOverGRPCAndREST(t *testing.T) {
 		{"describe", auth.RolePlace, func(c *client.Client) error { _, err := c.GetModel(ctx, "demo"); return err }, "GET", "/v1/models/demo", nil, 200},
 		{"place", auth.RolePlace, func(c *client.Client) error { _, err := c.Place(ctx, "demo", frag.Siglum, frag.Readings); return err },
 			"POST", "/v1/models/demo/placements", placeBody(frag), 200},
-		{"suggest", auth.RolePlace, func(c *client.Client) error { _, _, err := c.Suggest(ctx, "demo", frag.Siglum, frag.Readings, 0); return err },
+		{"suggest", auth.RolePlace, func(c *client.Client) error {
+			_, _, err := c.Suggest(ctx, "demo", frag.Siglum, frag.Readings, 0)
+			return err
+		},
 			"POST", "/v1/models/demo/suggestions", placeBody(frag), 200},
 		{"publish", auth.RolePublish, func(c *client.Client) error { _, err := c.PublishModel(ctx, "other", bundle, "", ""); return err },
 			"POST", "/v1/models/other/versions", map[string]any{"bundle": bundle}, 200},

@@ -148,7 +148,10 @@ func TestBadInputAnswers(t *testing.T) {
 		code codes.Code
 	}{
 		{"empty bundle", func() error { _, err := pub.PublishModel(ctx, "demo", nil, "", ""); return err }, codes.InvalidArgument},
-		{"not a bundle", func() error { _, err := pub.PublishModel(ctx, "demo", []byte("not a bundle at all"), "", ""); return err }, codes.InvalidArgument},
+		{"not a bundle", func() error {
+			_, err := pub.PublishModel(ctx, "demo", []byte("not a bundle at all"), "", "")
+			return err
+		}, codes.InvalidArgument},
 		{"damaged bundle", func() error {
 			b := append([]byte(nil), demoModelBundle(t)...)
 			b[len(b)/2] ^= 0xff
