@@ -200,17 +200,19 @@ type unitInfo struct{ lo, hi, off int32 }
 
 // Workspace is the scratch memory of placements: one per goroutine, reused across calls.
 type Workspace struct {
-	e      *Engine
-	mark   []uint32 // mark[u] == gen: unit u is covered by the current witness
-	gen    uint32
-	packed []float64
-	offs   []int32   // offsets of the Gram blocks to sum
-	rows   []int32   // offsets of the weighted rows of the known readings
-	g, c   []float64 // the last placement's normal equations: G_C (k x k) and c_C
-	h      []float64
-	vv     float64
-	solver *nnls.Solver
-	valid  bool
+	e       *Engine
+	mark    []uint32 // mark[u] == gen: unit u is covered by the current witness
+	gen     uint32
+	packed  []float64
+	offs    []int32   // offsets of the Gram blocks to sum
+	rows    []int32   // offsets of the weighted rows of the known readings
+	offMult []float64 // multiplicities of the blocks and rows (PlaceWeighted)
+	rowMult []float64
+	g, c    []float64 // the last placement's normal equations: G_C (k x k) and c_C
+	h       []float64
+	vv      float64
+	solver  *nnls.Solver
+	valid   bool
 }
 
 // NewWorkspace returns a Workspace for placements with e.
@@ -218,6 +220,7 @@ func (e *Engine) NewWorkspace() *Workspace {
 	return &Workspace{
 		e: e, mark: make([]uint32, len(e.units)), packed: make([]float64, e.tri),
 		offs: make([]int32, 0, len(e.rowUnits)), rows: make([]int32, 0, len(e.rowUnits)),
+		offMult: make([]float64, 0, len(e.rowUnits)), rowMult: make([]float64, 0, len(e.rowUnits)),
 		g: make([]float64, e.k*e.k), c: make([]float64, e.k), h: make([]float64, e.k),
 		solver: nnls.NewSolver(e.k),
 	}
@@ -229,6 +232,78 @@ func (e *Engine) NewWorkspace() *Workspace {
 // that covers no unit with rows. A witness all of whose readings are unknown to the model is
 // placed at h = 0 with Norm2 = 0.
 func (e *Engine) Place(obs []Observation, ws *Workspace) (Fit, error) {
+	fit, err := e.gather(obs, nil, ws)
+	if err != nil {
+		return Fit{}, err
+	}
+	// G_C, packed, by adding the covered blocks or, when fewer are missing, subtracting the sum
+	// of the missing ones from the full Gram.
+	G := ws.packed
+	missing := len(e.rowUnits) - fit.UsedUnits
+	if fit.UsedUnits <= missing {
+		sumRows(G, e.blocks, ws.offs)
+	} else {
+		offs := ws.offs[:0]
+		for b, u := range e.rowUnits {
+			if ws.mark[u] != ws.gen {
+				offs = append(offs, int32(b*e.tri))
+			}
+		}
+		sumRows(G, e.blocks, offs)
+		for i, f := range e.full {
+			G[i] = f - G[i]
+		}
+	}
+	// c_C = sum of w_r W[r,:] over the known readings.
+	sumRows(ws.c, e.wv, ws.rows)
+	e.unpack(ws)
+	if fit.UsedUnits > missing {
+		// After subtraction a column whose covered entries are all zero keeps a rounding residue
+		// of the size of (missing+1) * eps * G_jj: set such a column to exactly zero, so that it
+		// is neither used nor mistaken for an indefinite G.
+		k, g := e.k, ws.g
+		for j := range k {
+			if g[j*k+j] <= float64(missing+1)*8*epsilon*e.full[diagIndex(j, k)] {
+				for i := range k {
+					g[i*k+j] = 0
+					g[j*k+i] = 0
+				}
+			}
+		}
+	}
+	return e.solve(fit, ws)
+}
+
+// PlaceWeighted is Place with observation i entering the problem mult[i] times (any finite
+// non-negative real): it minimises sum_i mult[i] ||W_{u_i} h - v_{u_i}||^2 over h >= 0, as a
+// bootstrap resample of the units, or a down-weighting of some of them, needs. It uses the same
+// precomputed blocks, always by adding (O(|C| k^2)), and does not allocate. Observations with
+// mult[i] = 0 are checked but left out, and are not counted in UsedUnits or UnknownReadings;
+// Residual and Norm2 are the weighted sums. It fails as Place does, for len(mult) != len(obs),
+// and for a negative or non-finite multiplicity.
+func (e *Engine) PlaceWeighted(obs []Observation, mult []float64, ws *Workspace) (Fit, error) {
+	if len(mult) != len(obs) {
+		return Fit{}, fmt.Errorf("placement: %d multiplicities for %d observations", len(mult), len(obs))
+	}
+	for i, m := range mult {
+		if !(m >= 0) || math.IsInf(m, 0) {
+			return Fit{}, fmt.Errorf("placement: observation %d: multiplicity %v; expected a finite non-negative number", i, m)
+		}
+	}
+	fit, err := e.gather(obs, mult, ws)
+	if err != nil {
+		return Fit{}, err
+	}
+	sumRowsScaled(ws.packed, e.blocks, ws.offs, ws.offMult)
+	sumRowsScaled(ws.c, e.wv, ws.rows, ws.rowMult)
+	e.unpack(ws)
+	return e.solve(fit, ws)
+}
+
+// gather validates obs, marks the covered units in ws, and collects the offsets of the Gram
+// blocks of the used units (ws.offs) and of the weighted rows of the known readings (ws.rows),
+// with their multiplicities when mult is not nil, and v_C^T v_C. It returns the Fit counts.
+func (e *Engine) gather(obs []Observation, mult []float64, ws *Workspace) (Fit, error) {
 	if ws == nil || ws.e != e {
 		return Fit{}, errors.New("placement: the workspace was not made by this engine")
 	}
@@ -242,6 +317,7 @@ func (e *Engine) Place(obs []Observation, ws *Workspace) (Fit, error) {
 	used, unknown, nk := 0, 0, 0
 	vv := 0.0
 	offs, rows := ws.offs[:cap(ws.offs)], ws.rows[:cap(ws.rows)]
+	offMult, rowMult := ws.offMult[:cap(ws.offMult)], ws.rowMult[:cap(ws.rowMult)]
 	for i, o := range obs {
 		if o.Unit < 0 || o.Unit >= len(e.units) {
 			return Fit{}, fmt.Errorf("placement: observation %d: unit %d is out of range [0, %d)", i, o.Unit, len(e.units))
@@ -255,52 +331,42 @@ func (e *Engine) Place(obs []Observation, ws *Workspace) (Fit, error) {
 		if o.Row != -1 && (o.Row < lo || o.Row >= hi) {
 			return Fit{}, fmt.Errorf("placement: observation %d: row %d is not a reading of unit %d (rows [%d, %d), or -1 for an unknown reading)", i, o.Row, o.Unit, lo, hi)
 		}
-		if hi > lo {
-			// Units are distinct and have rows, so used < len(e.rowUnits) = cap(offs).
-			offs[used] = ui.off
-			used++
-			if o.Row < 0 {
-				unknown++
-			} else {
-				rows[nk] = int32(o.Row * e.k)
-				nk++
-				vv += e.w2[o.Row]
-			}
+		if hi == lo {
+			continue
 		}
+		m := 1.0
+		if mult != nil {
+			if m = mult[i]; m == 0 {
+				continue
+			}
+			offMult[used] = m
+		}
+		// Units are distinct and have rows, so used < len(e.rowUnits) = cap(offs).
+		offs[used] = ui.off
+		used++
+		if o.Row < 0 {
+			unknown++
+			continue
+		}
+		if mult != nil {
+			rowMult[nk] = m
+		}
+		rows[nk] = int32(o.Row * e.k)
+		nk++
+		vv += m * e.w2[o.Row]
 	}
-	offs, rows = offs[:used], rows[:nk]
+	ws.offs, ws.rows = offs[:used], rows[:nk]
+	ws.offMult, ws.rowMult = offMult[:used], rowMult[:nk]
 	if used == 0 {
 		return Fit{}, fmt.Errorf("%w (%d units observed, none with readings in the model)", ErrNoCoverage, len(obs))
 	}
+	ws.vv = vv
+	return Fit{CoveredUnits: len(obs), UsedUnits: used, UnknownReadings: unknown}, nil
+}
 
-	// G_C, packed, by adding the covered blocks or, when fewer are missing, subtracting the sum
-	// of the missing ones from the full Gram.
-	k := e.k
-	G := ws.packed
-	missing := len(e.rowUnits) - used
-	if used <= missing {
-		sumRows(G, e.blocks, offs)
-	} else {
-		offs = offs[:0]
-		for b, u := range e.rowUnits {
-			if ws.mark[u] != gen {
-				offs = append(offs, int32(b*e.tri))
-			}
-		}
-		sumRows(G, e.blocks, offs)
-		for i, f := range e.full {
-			G[i] = f - G[i]
-		}
-	}
-
-	// c_C = sum of w_r W[r,:] over the known readings (v_C^T v_C was summed above).
-	c := ws.c
-	sumRows(c, e.wv, rows)
-
-	// Unpack G_C to a full symmetric matrix. After subtraction a column whose covered entries
-	// are all zero keeps a rounding residue of the size of (missing+1) * eps * G_jj: set such a
-	// column to exactly zero, so that it is neither used nor mistaken for an indefinite G.
-	g := ws.g
+// unpack copies the packed G_C of ws to the full symmetric ws.g.
+func (e *Engine) unpack(ws *Workspace) {
+	k, g, G := e.k, ws.g, ws.packed
 	p := 0
 	for i := range k {
 		for j := i; j < k; j++ {
@@ -309,29 +375,18 @@ func (e *Engine) Place(obs []Observation, ws *Workspace) (Fit, error) {
 			p++
 		}
 	}
-	if used > missing {
-		for j := range k {
-			d := g[j*k+j]
-			full := e.full[diagIndex(j, k)]
-			if d <= float64(missing+1)*8*epsilon*full {
-				for i := range k {
-					g[i*k+j] = 0
-					g[j*k+i] = 0
-				}
-			}
-		}
-	}
+}
 
-	if err := ws.solver.SolveGram(g, c, ws.h); err != nil {
+// solve runs the NNLS on the normal equations in ws and completes fit.
+func (e *Engine) solve(fit Fit, ws *Workspace) (Fit, error) {
+	if err := ws.solver.SolveGram(ws.g, ws.c, ws.h); err != nil {
 		return Fit{}, fmt.Errorf("placement: solving for the group coefficients: %w", err)
 	}
-	ws.vv = vv
 	ws.valid = true
-	res := math.Max(0, nnls.Objective(g, c, vv, ws.h))
-	return Fit{
-		H: ws.h, Residual: res, Norm2: vv,
-		CoveredUnits: len(obs), UsedUnits: used, UnknownReadings: unknown,
-	}, nil
+	fit.H = ws.h
+	fit.Norm2 = ws.vv
+	fit.Residual = math.Max(0, nnls.Objective(ws.g, ws.c, ws.vv, ws.h))
+	return fit, nil
 }
 
 // ResidualAt returns ||W_C h - v_C||^2 for any h of length K(), for the witness of the last
@@ -358,6 +413,35 @@ const epsilon = 0x1p-52
 // diagIndex returns the index of entry (j, j) in a packed upper triangle of order k, stored
 // row by row: row i holds entries (i, i..k-1) and starts at i*k - i*(i-1)/2.
 func diagIndex(j, k int) int { return j*k - j*(j-1)/2 }
+
+// sumRowsScaled sets dst to the sum of scale[q] * src[offs[q] : offs[q]+len(dst)].
+func sumRowsScaled(dst, src []float64, offs []int32, scale []float64) {
+	n := len(dst)
+	clear(dst)
+	scale = scale[:len(offs)]
+	q := 0
+	for ; q+4 <= len(offs); q += 4 {
+		o0, o1, o2, o3 := int(offs[q]), int(offs[q+1]), int(offs[q+2]), int(offs[q+3])
+		s0, s1, s2, s3 := scale[q], scale[q+1], scale[q+2], scale[q+3]
+		a := src[o0 : o0+n]
+		b := src[o1 : o1+n]
+		c := src[o2 : o2+n]
+		d := src[o3 : o3+n]
+		a, b, c, d = a[:len(dst)], b[:len(dst)], c[:len(dst)], d[:len(dst)]
+		for i := range dst {
+			dst[i] += (s0*a[i] + s1*b[i]) + (s2*c[i] + s3*d[i])
+		}
+	}
+	for ; q < len(offs); q++ {
+		o := int(offs[q])
+		a := src[o : o+n]
+		a = a[:len(dst)]
+		sq := scale[q]
+		for i := range dst {
+			dst[i] += sq * a[i]
+		}
+	}
+}
 
 // sumRows sets dst to the sum of the vectors src[o : o+len(dst)] for o in offs. It adds four
 // vectors per pass over dst, so that dst is loaded and stored once per four.

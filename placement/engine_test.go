@@ -74,16 +74,27 @@ func randomWitness(rng *rand.Rand, m model, cover, unknown float64) []Observatio
 
 // explicitProblem builds the masked problem of the package doc row by row: A = W_C (the rows of
 // the covered units) and b = v_C (the row weight on the witness's reading, 0 on the unit's other
-// rows).
-func explicitProblem(m model, obs []Observation) (*mat.Dense, []float64) {
+// rows). With mult, the rows of observation i are scaled by sqrt(mult[i]), so that ||A h - b||^2
+// is the weighted sum of squares PlaceWeighted minimises; observations with mult[i] = 0 are
+// left out.
+func explicitProblem(m model, obs []Observation, mult []float64) (*mat.Dense, []float64) {
 	_, k := m.W.Dims()
 	var data, b []float64
-	for _, o := range obs {
+	for i, o := range obs {
+		s := 1.0
+		if mult != nil {
+			if mult[i] == 0 {
+				continue
+			}
+			s = math.Sqrt(mult[i])
+		}
 		for r := m.unitRows[o.Unit][0]; r < m.unitRows[o.Unit][1]; r++ {
-			data = append(data, m.W.RawRowView(r)...)
+			for _, v := range m.W.RawRowView(r) {
+				data = append(data, s*v)
+			}
 			v := 0.0
 			if r == o.Row {
-				v = m.weights[r]
+				v = s * m.weights[r]
 			}
 			b = append(b, v)
 		}
@@ -117,9 +128,9 @@ func residualOf(A *mat.Dense, b, h []float64) []float64 {
 // residual, ||v_C||^2, the fitted values W_C h (unique for any W_C), h itself where W_C has full
 // column rank (then h is unique), the KKT conditions of h on the explicit problem, and the
 // normal equations kept in the workspace.
-func checkAgainstSolve(t *testing.T, label string, m model, obs []Observation, fit Fit, ws *Workspace) {
+func checkAgainstSolve(t *testing.T, label string, m model, obs []Observation, mult []float64, fit Fit, ws *Workspace) {
 	t.Helper()
-	A, b := explicitProblem(m, obs)
+	A, b := explicitProblem(m, obs, mult)
 	ref, err := nnls.Solve(A, b)
 	if err != nil {
 		t.Fatalf("%s: reference Solve: %v", label, err)
@@ -214,7 +225,7 @@ func TestPlaceMatchesExplicitNNLS(t *testing.T) {
 			obs := randomWitness(rng, m, cover, 0.15)
 			label := fmt.Sprintf("trial %d (k=%d, %d units, cover %.2f)", trial, k, nUnits, cover)
 			fit, err := e.Place(obs, ws)
-			A, _ := explicitProblem(m, obs)
+			A, _ := explicitProblem(m, obs, nil)
 			if A == nil {
 				if !errors.Is(err, ErrNoCoverage) {
 					t.Errorf("%s: no unit with rows covered: err = %v, want ErrNoCoverage", label, err)
@@ -236,13 +247,13 @@ func TestPlaceMatchesExplicitNNLS(t *testing.T) {
 			if fit.CoveredUnits != len(obs) || fit.UsedUnits != used || fit.UnknownReadings != unknown {
 				t.Errorf("%s: counts %d/%d/%d, want %d/%d/%d", label, fit.CoveredUnits, fit.UsedUnits, fit.UnknownReadings, len(obs), used, unknown)
 			}
-			checkAgainstSolve(t, label, m, obs, fit, ws)
+			checkAgainstSolve(t, label, m, obs, nil, fit, ws)
 			// ResidualAt agrees with the residual computed row by row at an arbitrary h.
 			h := make([]float64, k)
 			for j := range h {
 				h[j] = rng.Float64()
 			}
-			A, b := explicitProblem(m, obs)
+			A, b := explicitProblem(m, obs, nil)
 			got, err := ws.ResidualAt(h)
 			if err != nil {
 				t.Fatal(err)
@@ -251,6 +262,96 @@ func TestPlaceMatchesExplicitNNLS(t *testing.T) {
 				t.Errorf("%s: ResidualAt = %v, direct %v", label, got, want)
 			}
 		}
+	}
+}
+
+// TestPlaceWeighted checks PlaceWeighted against nnls.Solve on the explicit problem with rows
+// scaled by sqrt(mult), and against Place where every multiplicity is 1.
+func TestPlaceWeighted(t *testing.T) {
+	rng := rand.New(rand.NewPCG(19, 20))
+	for trial := range 30 {
+		k := 1 + rng.IntN(14)
+		m := randomModel(rng, 10+rng.IntN(80), k, 0.1, 0.2)
+		e, err := NewEngine(m.W, m.unitRows, m.weights)
+		if err != nil {
+			t.Fatal(err)
+		}
+		ws := e.NewWorkspace()
+		obs := randomWitness(rng, m, 0.2+0.8*rng.Float64(), 0.1)
+		mult := make([]float64, len(obs))
+		used, unknown := 0, 0
+		for i, o := range obs {
+			switch rng.IntN(4) {
+			case 0: // left out
+			case 1:
+				mult[i] = float64(1 + rng.IntN(3)) // a bootstrap count
+			default:
+				mult[i] = 2 * rng.Float64()
+			}
+			if lo, hi := m.unitRows[o.Unit][0], m.unitRows[o.Unit][1]; hi > lo && mult[i] > 0 {
+				used++
+				if o.Row < 0 {
+					unknown++
+				}
+			}
+		}
+		label := fmt.Sprintf("weighted trial %d (k=%d)", trial, k)
+		fit, err := e.PlaceWeighted(obs, mult, ws)
+		if used == 0 {
+			if !errors.Is(err, ErrNoCoverage) {
+				t.Errorf("%s: nothing used: err = %v, want ErrNoCoverage", label, err)
+			}
+			continue
+		}
+		if err != nil {
+			t.Fatalf("%s: %v", label, err)
+		}
+		if fit.UsedUnits != used || fit.UnknownReadings != unknown || fit.CoveredUnits != len(obs) {
+			t.Errorf("%s: counts %d/%d/%d, want %d/%d/%d", label, fit.CoveredUnits, fit.UsedUnits, fit.UnknownReadings, len(obs), used, unknown)
+		}
+		checkAgainstSolve(t, label, m, obs, mult, fit, ws)
+
+		for i := range mult {
+			mult[i] = 1
+		}
+		fw, err := e.PlaceWeighted(obs, mult, ws)
+		if err != nil {
+			t.Fatal(err)
+		}
+		hw := append([]float64(nil), fw.H...)
+		fp, err := e.Place(obs, ws)
+		if err != nil {
+			t.Fatal(err)
+		}
+		for j := range hw {
+			if math.Abs(hw[j]-fp.H[j]) > 1e-9*math.Max(1, math.Abs(fp.H[j])) {
+				t.Errorf("%s: unit multiplicities: h[%d] = %v, Place %v", label, j, hw[j], fp.H[j])
+			}
+		}
+	}
+	m := randomModel(rng, 20, 3, 0, 0)
+	e, _ := NewEngine(m.W, m.unitRows, m.weights)
+	ws := e.NewWorkspace()
+	obs := randomWitness(rng, m, 1, 0)
+	for _, bad := range [][]float64{make([]float64, len(obs)-1), append(make([]float64, len(obs)-1), -1),
+		append(make([]float64, len(obs)-1), math.NaN()), append(make([]float64, len(obs)-1), math.Inf(1))} {
+		if _, err := e.PlaceWeighted(obs, bad, ws); err == nil || errors.Is(err, ErrNoCoverage) {
+			t.Errorf("PlaceWeighted with multiplicities %v: err = %v, want a validation error", bad, err)
+		}
+	}
+	if _, err := e.PlaceWeighted(obs, make([]float64, len(obs)), ws); !errors.Is(err, ErrNoCoverage) {
+		t.Errorf("all multiplicities 0: err = %v, want ErrNoCoverage", err)
+	}
+	mult := make([]float64, len(obs))
+	for i := range mult {
+		mult[i] = float64(i % 3)
+	}
+	if a := testing.AllocsPerRun(20, func() {
+		if _, err := e.PlaceWeighted(obs, mult, ws); err != nil {
+			t.Fatal(err)
+		}
+	}); a != 0 {
+		t.Errorf("PlaceWeighted allocated %v times per run, want 0", a)
 	}
 }
 
@@ -286,7 +387,7 @@ func TestPlaceColumnAbsentFromCoverage(t *testing.T) {
 		if fit.H[3] != 0 {
 			t.Errorf("trial %d: group 3 has no profile on the covered units but h[3] = %v", trial, fit.H[3])
 		}
-		checkAgainstSolve(t, fmt.Sprintf("absent column, trial %d", trial), m, obs, fit, ws)
+		checkAgainstSolve(t, fmt.Sprintf("absent column, trial %d", trial), m, obs, nil, fit, ws)
 	}
 }
 
