@@ -246,7 +246,9 @@ func groupSources(groups []*pb.GroupSummary, truth *simulate.Truth) map[string]s
 		for n := range count {
 			names = append(names, n)
 		}
-		sort.Slice(names, func(a, b int) bool { return count[names[a]] > count[names[b]] || count[names[a]] == count[names[b]] && names[a] < names[b] })
+		sort.Slice(names, func(a, b int) bool {
+			return count[names[a]] > count[names[b]] || count[names[a]] == count[names[b]] && names[a] < names[b]
+		})
 		var parts []string
 		for _, n := range names {
 			parts = append(parts, fmt.Sprintf("%s %d/%d", n, count[n], len(g.GetLeadingWitnesses())))
@@ -255,4 +257,3 @@ func groupSources(groups []*pb.GroupSummary, truth *simulate.Truth) map[string]s
 	}
 	return out
 }
-
