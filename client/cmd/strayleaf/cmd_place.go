@@ -9,6 +9,7 @@ import (
 	"strings"
 	"text/tabwriter"
 
+	"strayleaf/client"
 	"strayleaf/placement/collation"
 	"strayleaf/placement/model"
 )
@@ -115,9 +116,10 @@ func (s *modelSource) load() (*model.Model, string, func(), error) {
 }
 
 func runPlace(ctx context.Context, args []string, stdout, stderr io.Writer) error {
-	fs := newFlags("place", "place (--bundle BUNDLE | --store DB --model REF) --witnesses FILE [--json | --format table|json|csv|tei]", stderr)
+	fs := newFlags("place", "place (--bundle BUNDLE | --store DB --model REF | --server ADDR --model REF) --witnesses FILE [--json | --format table|json|csv|tei]", stderr)
 	var src modelSource
 	src.flags(fs)
+	remote := addRemoteFlags(fs)
 	path := fs.String("witnesses", "", "witnesses to place, in the collation form (long CSV or TEI); every witness in it is placed")
 	inFormat := fs.String("witnesses-format", "", "format of --witnesses: csv or tei (default: by extension)")
 	asJSON := fs.Bool("json", false, "print JSON lines, one object per witness (same as --format json)")
@@ -131,26 +133,30 @@ func runPlace(ctx context.Context, args []string, stdout, stderr io.Writer) erro
 	if *asJSON {
 		*outFormat = "json"
 	}
-	m, ref, done, err := src.load()
-	if err != nil {
-		return err
-	}
-	defer done()
 	in, err := readCollation(*path, *inFormat)
 	if err != nil {
 		return err
 	}
 	var results []placementJSON
-	failed := 0
-	ws := m.Engine().NewWorkspace()
-	for _, w := range witnessesFromCollation(in.C) {
-		p, err := m.Place(w.Witness, w.Readings, ws)
-		if err != nil {
-			failed++
-			results = append(results, placementJSON{Witness: w.Witness, Model: ref, Error: err.Error(), Groups: []shareOut{}, UnknownReadings: []string{}, UninformativeUnits: []string{}})
-			continue
+	if remote.remote() {
+		if src.bundle != "" || src.store != "" {
+			return usageError("place", "--server places against the server's store: give --model REF, not --bundle or --store")
 		}
-		results = append(results, placementOut(p, ref))
+		if src.ref == "" {
+			return usageError("place", "--server needs --model REF")
+		}
+		results, err = placeRemote(ctx, remote, src.ref, witnessesFromCollation(in.C))
+	} else {
+		results, err = placeLocal(&src, witnessesFromCollation(in.C))
+	}
+	if err != nil {
+		return err
+	}
+	failed := 0
+	for _, r := range results {
+		if r.Error != "" {
+			failed++
+		}
 	}
 	if err := writePlacements(stdout, *outFormat, results); err != nil {
 		return err
@@ -194,4 +200,61 @@ func writePlacements(w io.Writer, format string, results []placementJSON) error 
 		return tw.Flush()
 	}
 	return fmt.Errorf("--format %q: expected table, json, csv or tei", format)
+}
+
+func failedPlacement(witness, ref, msg string) placementJSON {
+	return placementJSON{Witness: witness, Model: ref, Error: msg, Groups: []shareOut{}, UnknownReadings: []string{}, UninformativeUnits: []string{}}
+}
+
+// placeLocal places every witness against a model from a bundle file or a local store.
+func placeLocal(src *modelSource, witnesses []witnessInput) ([]placementJSON, error) {
+	m, ref, done, err := src.load()
+	if err != nil {
+		return nil, err
+	}
+	defer done()
+	results := make([]placementJSON, 0, len(witnesses))
+	ws := m.Engine().NewWorkspace()
+	for _, w := range witnesses {
+		p, err := m.Place(w.Witness, w.Readings, ws)
+		if err != nil {
+			results = append(results, failedPlacement(w.Witness, ref, err.Error()))
+			continue
+		}
+		results = append(results, placementOut(p, ref))
+	}
+	return results, nil
+}
+
+// placeRemote places every witness over one PlaceStream to a strayleafd.
+func placeRemote(ctx context.Context, remote *remoteFlags, ref string, witnesses []witnessInput) ([]placementJSON, error) {
+	cl, err := remote.dial()
+	if err != nil {
+		return nil, err
+	}
+	defer cl.Close()
+	ws := make([]client.Witness, len(witnesses))
+	for i, w := range witnesses {
+		ws[i].Siglum = w.Witness
+		for _, r := range w.Readings {
+			ws[i].Readings = append(ws[i].Readings, client.Reading{Unit: r.Unit, Reading: r.Reading})
+		}
+	}
+	results := make([]placementJSON, 0, len(ws))
+	err = cl.PlaceAll(ctx, ref, ws, func(r client.StreamResult) error {
+		if r.Err != nil {
+			results = append(results, failedPlacement(r.Witness, ref, r.Err.Error()))
+			return nil
+		}
+		p := r.Placement
+		out := placementJSON{Witness: p.Witness, Model: p.Model, BestGroup: p.BestGroup, Confidence: p.Confidence,
+			CoveredUnits: p.CoveredUnits, UsedUnits: p.UsedUnits, RelativeResidual: p.RelativeResidual,
+			UnknownReadings: nonNil(p.UnknownReadings), UninformativeUnits: nonNil(p.UninformativeUnits)}
+		for _, g := range p.Groups {
+			out.Groups = append(out.Groups, shareOut{g.Group, g.Share})
+		}
+		results = append(results, out)
+		return nil
+	})
+	return results, err
 }
