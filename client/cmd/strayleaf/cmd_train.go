@@ -111,7 +111,7 @@ func runTrain(ctx context.Context, args []string, stdout, stderr io.Writer) erro
 	tw := tabwriter.NewWriter(stdout, 0, 0, 2, ' ', 0)
 	fmt.Fprintf(tw, "model\t%s (%d bytes, sha256 %s)\n", *out, len(b), rep.BundleSHA256[:16])
 	fmt.Fprintf(tw, "trained on\t%d witnesses, %d readings; %d witnesses set aside\n", rep.TrainingWitnesss, len(m.Rows), len(rep.SetAside))
-	fmt.Fprintf(tw, "fit\trelative error %.3f after %d iterations (restart %d of %d)\n", rep.RelativeError, rep.Iterations, m.Fit.BestRestart, m.Train.Restarts)
+	fmt.Fprintf(tw, "fit\trelative error %.3f after %d iterations (restart %d of %d)\n", rep.RelativeError, rep.Iterations, m.Fit.BestRestart+1, m.Train.Restarts)
 	if rep.Calibration != nil {
 		fmt.Fprintf(tw, "calibration\t%s, expected calibration error %.3f over %d simulated fragments\n", rep.Calibration.Method, rep.Calibration.ECE, rep.Calibration.N)
 	}
