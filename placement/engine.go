@@ -83,12 +83,10 @@ type Fit struct {
 // for concurrent use by many goroutines, each with its own Workspace.
 type Engine struct {
 	k, nRows int
-	w        []float64 // W row-major, nRows x k
 	weight   []float64
-	wv       []float64 // weighted rows w_r W[r,:], row-major
 	w2       []float64 // w_r^2
 	units    []unitInfo
-	blocks   []float64 // packed upper triangles, tri entries each
+	blocks   []float64 // per unit with rows: packed upper triangle of W_u^T W_u, then w_r W[r,:] for its rows
 	full     []float64 // packed upper triangle of the full Gram W^T W
 	rowUnits []int32   // units that have rows, in order
 	tri      int       // k(k+1)/2
@@ -111,19 +109,20 @@ func NewEngine(W *mat.Dense, unitRows [][2]int, rowWeights []float64) (*Engine, 
 		return nil, errors.New("placement: no units")
 	}
 	e := &Engine{
-		k: k, nRows: nRows, w: make([]float64, nRows*k), weight: make([]float64, nRows),
+		k: k, nRows: nRows, weight: make([]float64, nRows),
 		units: make([]unitInfo, len(unitRows)), tri: k * (k + 1) / 2,
 	}
 	if nRows*k > math.MaxInt32 || len(unitRows)*e.tri > math.MaxInt32 {
 		return nil, fmt.Errorf("placement: a model of %d units, %d rows and %d groups is too large (offsets are 32-bit)", len(unitRows), nRows, k)
 	}
+	w := make([]float64, nRows*k) // W row-major
 	for r := range nRows {
 		for j := range k {
 			v := W.At(r, j)
 			if !(v >= 0) || math.IsInf(v, 0) {
 				return nil, fmt.Errorf("placement: W[%d][%d] is %v; profiles must be finite and non-negative", r, j, v)
 			}
-			e.w[r*k+j] = v
+			w[r*k+j] = v
 		}
 		wt := rowWeights[r]
 		if !(wt >= 0) || math.IsInf(wt, 0) {
@@ -145,18 +144,29 @@ func NewEngine(W *mat.Dense, unitRows [][2]int, rowWeights []float64) (*Engine, 
 			return nil, fmt.Errorf("placement: unit %d has row range [%d, %d), overlapping or before the previous unit's rows (which end at %d)", u, lo, hi, prevEnd)
 		}
 		prevEnd = hi
-		e.units[u].off = int32(len(e.rowUnits) * e.tri)
 		e.rowUnits = append(e.rowUnits, int32(u))
 	}
 	if len(e.rowUnits) == 0 {
 		return nil, errors.New("placement: no unit has rows")
 	}
-	e.blocks = make([]float64, len(e.rowUnits)*e.tri)
+	// Unit by unit, the packed Gram block followed by the unit's weighted rows, so that a
+	// placement reads one stretch of memory per covered unit.
+	size := 0
+	for _, u := range e.rowUnits {
+		size += e.tri + (unitRows[u][1]-unitRows[u][0])*k
+	}
+	if size > math.MaxInt32 {
+		return nil, fmt.Errorf("placement: a model of %d units, %d rows and %d groups is too large (offsets are 32-bit)", len(unitRows), nRows, k)
+	}
+	e.blocks = make([]float64, size)
 	e.full = make([]float64, e.tri)
-	for b, u := range e.rowUnits {
-		blk := e.blocks[b*e.tri : (b+1)*e.tri]
+	off := 0
+	for _, u := range e.rowUnits {
+		e.units[u].off = int32(off)
+		blk := e.blocks[off : off+e.tri]
+		wv := e.blocks[off+e.tri:]
 		for r := unitRows[u][0]; r < unitRows[u][1]; r++ {
-			row := e.w[r*k : r*k+k]
+			row := w[r*k : r*k+k]
 			p := 0
 			for i := range k {
 				ri := row[i]
@@ -165,18 +175,17 @@ func NewEngine(W *mat.Dense, unitRows [][2]int, rowWeights []float64) (*Engine, 
 					p++
 				}
 			}
+			for j, v := range row {
+				wv[(r-unitRows[u][0])*k+j] = e.weight[r] * v
+			}
 		}
 		for i, v := range blk {
 			e.full[i] += v
 		}
+		off += e.tri + (unitRows[u][1]-unitRows[u][0])*k
 	}
-	e.wv = make([]float64, nRows*k)
 	e.w2 = make([]float64, nRows)
-	for r := range nRows {
-		wt := e.weight[r]
-		for j := range k {
-			e.wv[r*k+j] = wt * e.w[r*k+j]
-		}
+	for r, wt := range e.weight {
 		e.w2[r] = wt * wt
 	}
 	return e, nil
@@ -244,9 +253,9 @@ func (e *Engine) Place(obs []Observation, ws *Workspace) (Fit, error) {
 		sumRows(G, e.blocks, ws.offs)
 	} else {
 		offs := ws.offs[:0]
-		for b, u := range e.rowUnits {
+		for _, u := range e.rowUnits {
 			if ws.mark[u] != ws.gen {
-				offs = append(offs, int32(b*e.tri))
+				offs = append(offs, e.units[u].off)
 			}
 		}
 		sumRows(G, e.blocks, offs)
@@ -255,7 +264,7 @@ func (e *Engine) Place(obs []Observation, ws *Workspace) (Fit, error) {
 		}
 	}
 	// c_C = sum of w_r W[r,:] over the known readings.
-	sumRows(ws.c, e.wv, ws.rows)
+	sumRows(ws.c, e.blocks, ws.rows)
 	e.unpack(ws)
 	if fit.UsedUnits > missing {
 		// After subtraction a column whose covered entries are all zero keeps a rounding residue
@@ -295,7 +304,7 @@ func (e *Engine) PlaceWeighted(obs []Observation, mult []float64, ws *Workspace)
 		return Fit{}, err
 	}
 	sumRowsScaled(ws.packed, e.blocks, ws.offs, ws.offMult)
-	sumRowsScaled(ws.c, e.wv, ws.rows, ws.rowMult)
+	sumRowsScaled(ws.c, e.blocks, ws.rows, ws.rowMult)
 	e.unpack(ws)
 	return e.solve(fit, ws)
 }
@@ -351,7 +360,7 @@ func (e *Engine) gather(obs []Observation, mult []float64, ws *Workspace) (Fit, 
 		if mult != nil {
 			rowMult[nk] = m
 		}
-		rows[nk] = int32(o.Row * e.k)
+		rows[nk] = ui.off + int32(e.tri+(o.Row-lo)*e.k)
 		nk++
 		vv += m * e.w2[o.Row]
 	}
