@@ -43,6 +43,20 @@ type Placement struct {
 	UninformativeUnits []string
 	// Residual is ||W_c h - v_c||^2 and RelativeResidual Residual / ||v_c||^2.
 	Residual, RelativeResidual float64
+	// InformativeCoverage is the share of the model's total informativeness carried by the used
+	// units (see Model.Informativeness).
+	InformativeCoverage float64
+	// Features are what Confidence is read from; Calibrated reports that it was read through
+	// the model's calibration (the probability that BestGroup is the witness's true group),
+	// not the provisional formula of a model without one.
+	Features   Features
+	Calibrated bool
+	// Mixture is the mixture reading of the two largest shares (nil with one group or no
+	// placement); Mixed is Mixture.Mixed.
+	Mixture *Mixture
+	Mixed   bool
+	// Nearest are the training witnesses that agree most with the witness (see Model.Nearest).
+	Nearest []Neighbour
 }
 
 // InputError lists what is wrong with a witness given for placement, unit by unit, so that a
@@ -139,6 +153,7 @@ func (m *Model) Place(witness string, readings []Reading, ws *placement.Workspac
 		return nil, fmt.Errorf("witness %s: %w", witness, err)
 	}
 	m.finish(p, fit)
+	m.assess(p, obs, readings)
 	return p, nil
 }
 
@@ -166,16 +181,4 @@ func (m *Model) finish(p *Placement, fit placement.Fit) {
 	if sum > 0 {
 		p.BestGroup = p.Groups[0].Group
 	}
-	p.Confidence = m.confidence(p)
-}
-
-// confidence is the provisional, uncalibrated confidence: the best share, discounted by how few
-// units were used (half weight at 10 units). It is replaced by the calibrated map when the model
-// carries one.
-func (m *Model) confidence(p *Placement) float64 {
-	if p.BestGroup == "" {
-		return 0
-	}
-	n := float64(p.UsedUnits)
-	return p.Groups[0].Share * n / (n + 10)
 }

@@ -1,0 +1,305 @@
+package calibrate
+
+import (
+	"math"
+	"math/rand/v2"
+	"testing"
+
+	"strayleaf/placement/collation"
+	"strayleaf/placement/model"
+	"strayleaf/placement/simulate"
+)
+
+// tradition is a simulated tradition split into the witnesses a model is trained on and
+// witnesses held out of training, with the trained, calibrated model.
+type tradition struct {
+	name     string
+	tr       *simulate.Tradition
+	kept     *simulate.Tradition
+	held     *simulate.Tradition
+	model    *model.Model
+	report   *Report
+	toTruth  map[string]int // model group -> simulated group (majority of its training witnesses)
+	ofTruth  map[int]string // simulated group -> model group
+	numUnits int
+}
+
+type tradSpec struct {
+	name             string
+	seed             uint64
+	witnesses, units int
+	families         []simulate.Family
+	mixed, block     float64
+	heldPure         int
+	// famDiv and grpDiv, if set, replace the simulator's divergences (lower is harder).
+	famDiv, grpDiv float64
+}
+
+var specs = []tradSpec{
+	{"sub-groups", 22, 70, 200, nil, 0.05, 0.05, 10, 0, 0},
+	{"four-families", 23, 80, 200, []simulate.Family{{Groups: 2, Share: 0.4}, {Groups: 1, Share: 0.2}, {Groups: 1, Share: 0.2}, {Groups: 1, Share: 0.2}}, 0.05, 0.05, 10, 0, 0},
+	{"close-groups", 24, 80, 300, nil, 0.05, 0.05, 12, 0.08, 0.04},
+	// Many close sub-groups: a random unit rarely tells two sister groups apart.
+	{"fine-groups", 25, 160, 250, []simulate.Family{{Groups: 3, Share: 0.25}, {Groups: 3, Share: 0.25}, {Groups: 3, Share: 0.25}, {Groups: 3, Share: 0.25}}, 0.05, 0.05, 12, 0.04, 0.02},
+}
+
+var tradCache = map[string]*tradition{}
+
+// build simulates, splits and trains (cached across tests of one run).
+func build(t testing.TB, s tradSpec) *tradition {
+	t.Helper()
+	if tc, ok := tradCache[s.name]; ok {
+		return tc
+	}
+	cfg := simulate.DefaultConfig()
+	cfg.Seed, cfg.Witnesses, cfg.Units = s.seed, s.witnesses, s.units
+	if s.families != nil {
+		cfg.Families = s.families
+	}
+	cfg.Mixed, cfg.BlockMixed, cfg.Fragmentary = s.mixed, s.block, 0
+	if s.famDiv > 0 {
+		cfg.FamilyDivergence, cfg.GroupDivergence = s.famDiv, s.grpDiv
+	}
+	tr, err := simulate.Simulate(cfg)
+	if err != nil {
+		t.Fatal(err)
+	}
+	// Hold out the first heldPure pure witnesses of each... of the tradition, in collation order.
+	var held []string
+	for _, w := range tr.Truth.Witnesses {
+		if w.Kind == simulate.KindPure && len(held) < s.heldPure {
+			held = append(held, w.Siglum)
+		}
+	}
+	kept, out, err := tr.Split(held)
+	if err != nil {
+		t.Fatal(err)
+	}
+	k := len(tr.Truth.Groups)
+	m, rep, err := Train(kept.Collation, model.TrainOptions{Groups: k, Seed: 5}, Options{Seed: 9})
+	if err != nil {
+		t.Fatal(err)
+	}
+	dm, err := model.FromProto(m)
+	if err != nil {
+		t.Fatal(err)
+	}
+	tc := &tradition{name: s.name, tr: tr, kept: kept, held: out, model: dm, report: rep, toTruth: map[string]int{}, ofTruth: map[int]string{}, numUnits: s.units}
+	votes := map[string]map[int]int{}
+	for _, tw := range m.TrainingWitnesses {
+		wt, ok := kept.Truth.Witness(tw.Witness)
+		if !ok {
+			t.Fatalf("no truth for %s", tw.Witness)
+		}
+		if votes[tw.BestGroup] == nil {
+			votes[tw.BestGroup] = map[int]int{}
+		}
+		votes[tw.BestGroup][wt.Group]++
+	}
+	for g, v := range votes {
+		best, n := -1, -1
+		for tg, c := range v {
+			if c > n || (c == n && tg < best) {
+				best, n = tg, c
+			}
+		}
+		tc.toTruth[g] = best
+		tc.ofTruth[best] = g
+	}
+	tradCache[s.name] = tc
+	return tc
+}
+
+func readings(c *collation.Collation, row []int32) []model.Reading {
+	var out []model.Reading
+	for u, r := range row {
+		if r != collation.Lacuna {
+			un := c.Unit(u)
+			out = append(out, model.Reading{Unit: un.ID, Reading: un.Readings[r]})
+		}
+	}
+	return out
+}
+
+// Ground truth (the simulator): fragments cut at 2, 5, 10, 20 and 40% coverage, as leaves and
+// as scattered units, out of pure witnesses held out of training, on three traditions: the
+// confidence is calibrated, expected calibration error over 10 bins at most 0.05 over all of them.
+func TestCalibrationOnHeldOutWitnesses(t *testing.T) {
+	var conf []float64
+	var correct []bool
+	for _, s := range specs[:3] {
+		tc := build(t, s)
+		t.Logf("%s: %d calibration fragments, cross-fitted ECE %.3f, train %.2fs, calibration %.2fs (x%.1f)", s.name,
+			tc.report.Samples, tc.report.ECE, tc.report.TrainSeconds, tc.report.CalibrationSeconds, tc.report.CalibrationSeconds/tc.report.TrainSeconds)
+		c := tc.held.Collation
+		rng := rand.New(rand.NewPCG(s.seed, 77))
+		nc, nr := 0, 0
+		for w := 0; w < c.NumWitnesses(); w++ {
+			truth := tc.held.Truth.Witnesses[w].Group
+			for _, level := range []float64{0.02, 0.05, 0.1, 0.2, 0.4} {
+				n := max(1, int(math.Round(level*float64(c.NumUnits()))))
+				for cut := 0; cut < 4; cut++ {
+					for _, frag := range [][]int32{simulate.CutContiguous(c.Row(w), n, rng), simulate.CutScattered(c.Row(w), n, rng)} {
+						p, err := tc.model.Place(c.Witness(w), readings(c, frag), nil)
+						if err != nil {
+							continue
+						}
+						if !p.Calibrated {
+							t.Fatal("placement not calibrated")
+						}
+						ok := p.BestGroup != "" && tc.toTruth[p.BestGroup] == truth
+						conf = append(conf, p.Confidence)
+						correct = append(correct, ok)
+						nc++
+						if ok {
+							nr++
+						}
+					}
+				}
+			}
+		}
+		t.Logf("%s: %d test fragments, %.1f%% correct", s.name, nc, 100*float64(nr)/float64(nc))
+	}
+	bins, ece, err := Reliability(conf, correct)
+	if err != nil {
+		t.Fatal(err)
+	}
+	for _, b := range bins {
+		if b.Count > 0 {
+			t.Logf("bin (%.1f, %.1f]: %4d fragments, confidence %.3f, correct %.3f", b.Lo, b.Hi, b.Count, b.Confidence, b.Accuracy)
+		}
+	}
+	t.Logf("held-out ECE %.4f over %d fragments", ece, len(conf))
+	if ece > 0.05 {
+		t.Errorf("expected calibration error %.4f > 0.05", ece)
+	}
+}
+
+// checkingRun simulates a cataloguer who starts from a fragment of a held-out witness and checks
+// five more of its extant units at a time, chosen by choose, until the placement is right with
+// confidence >= 0.9; it returns the units checked after the start (all remaining ones if never).
+func checkingRun(t *testing.T, tc *tradition, w int, start []int, choose func(checked map[int]bool, rd []model.Reading) []int) int {
+	c := tc.held.Collation
+	row := c.Row(w)
+	truth := tc.held.Truth.Witnesses[w].Group
+	checked := map[int]bool{}
+	var rd []model.Reading
+	add := func(u int) {
+		if checked[u] || row[u] == collation.Lacuna {
+			return
+		}
+		checked[u] = true
+		un := c.Unit(u)
+		rd = append(rd, model.Reading{Unit: un.ID, Reading: un.Readings[row[u]]})
+	}
+	for _, u := range start {
+		add(u)
+	}
+	extra := 0
+	for {
+		if p, err := tc.model.Place(c.Witness(w), rd, nil); err == nil && p.Confidence >= 0.9 && tc.toTruth[p.BestGroup] == truth {
+			return extra
+		}
+		next := choose(checked, rd)
+		if len(next) == 0 {
+			return extra
+		}
+		for _, u := range next {
+			add(u)
+			extra++
+		}
+	}
+}
+
+func median(v []int) float64 {
+	s := append([]int(nil), v...)
+	for i := range s {
+		for j := i + 1; j < len(s); j++ {
+			if s[j] < s[i] {
+				s[i], s[j] = s[j], s[i]
+			}
+		}
+	}
+	n := len(s)
+	if n%2 == 1 {
+		return float64(s[n/2])
+	}
+	return float64(s[n/2-1]+s[n/2]) / 2
+}
+
+// Ground truth (the simulator): a cataloguer who starts from a 2%-coverage fragment of a held-out
+// witness and checks the suggested units five at a time reaches a correct placement with
+// confidence >= 0.9 after at most half the units (median) that checking random units needs.
+func TestSuggestionsBeatRandomChecking(t *testing.T) {
+	for _, s := range []tradSpec{specs[3]} {
+		tc := build(t, s)
+		c := tc.held.Collation
+		nu := c.NumUnits()
+		rng := rand.New(rand.NewPCG(s.seed, 99))
+		var sugg, random []int
+		for w := 0; w < c.NumWitnesses(); w++ {
+			row := c.Row(w)
+			var extant []int
+			for u, r := range row {
+				if r != collation.Lacuna {
+					extant = append(extant, u)
+				}
+			}
+			for rep := 0; rep < 3; rep++ {
+				frag := simulate.CutScattered(row, max(1, int(math.Round(0.02*float64(nu)))), rng)
+				var start []int
+				for u, r := range frag {
+					if r != collation.Lacuna {
+						start = append(start, u)
+					}
+				}
+				unchecked := func(checked map[int]bool) []string {
+					var ids []string
+					for _, u := range extant {
+						if !checked[u] {
+							ids = append(ids, c.Unit(u).ID)
+						}
+					}
+					return ids
+				}
+				ns := checkingRun(t, tc, w, start, func(checked map[int]bool, rd []model.Reading) []int {
+					cand := unchecked(checked)
+					if len(cand) == 0 {
+						return nil
+					}
+					sg, err := tc.model.Suggest(c.Witness(w), rd, model.SuggestOptions{Top: 5, Candidates: cand})
+					if err != nil {
+						t.Fatal(err)
+					}
+					var next []int
+					for _, us := range sg.Units {
+						u, _ := c.UnitIndex(us.Unit)
+						next = append(next, u)
+					}
+					return next
+				})
+				nr := checkingRun(t, tc, w, start, func(checked map[int]bool, _ []model.Reading) []int {
+					var left []int
+					for _, u := range extant {
+						if !checked[u] {
+							left = append(left, u)
+						}
+					}
+					rng.Shuffle(len(left), func(i, j int) { left[i], left[j] = left[j], left[i] })
+					return left[:min(5, len(left))]
+				})
+				sugg = append(sugg, ns)
+				random = append(random, nr)
+			}
+		}
+		ms, mr := median(sugg), median(random)
+		t.Logf("%s: %d runs; units checked, median: suggested %.1f, random %.1f", s.name, len(sugg), ms, mr)
+		t.Logf("suggested %v\nrandom    %v", sugg, random)
+		if mr < 10 {
+			t.Fatalf("random checking needs only %.1f units: the tradition is too easy to tell the strategies apart", mr)
+		}
+		if ms > 0.5*mr {
+			t.Errorf("suggested checking needs %.1f units (median), more than half of random checking's %.1f", ms, mr)
+		}
+	}
+}

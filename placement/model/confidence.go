@@ -1,0 +1,362 @@
+package model
+
+import (
+	"fmt"
+	"math"
+	"math/rand/v2"
+	"sort"
+	"sync"
+
+	"strayleaf/placement"
+	"strayleaf/placement/nnls"
+	pb "strayleaf/proto/strayleaf/v1"
+)
+
+// Features are what a placement's confidence is read from. They are computed for every placement
+// and, at training time, for simulated fragments whose right answer is known (package
+// placement/calibrate), which is how the map from features to confidence is learnt.
+type Features struct {
+	// InformativeCoverage is the share of the model's total informativeness that the used units
+	// carry (see Model.Informativeness).
+	InformativeCoverage float64
+	// Margin is the best group's share less the second's.
+	Margin float64
+	// Stability is the share of bootstrap resamples of the used units (drawn with replacement,
+	// as many as there are, in random blocks for a witness of many units; Efron 1979, Ann.
+	// Statist. 7; from memory) whose placement has the same best group.
+	Stability float64
+	// RelativeResidual is the placement's Residual / ||v_C||^2.
+	RelativeResidual float64
+	// UsedUnits is the number of units that entered the fit.
+	UsedUnits int
+	// LogOdds is the log-likelihood ratio of the best group over the second under the groups'
+	// reading probabilities (see ReadingProbabilities): sum over used units of
+	// log P(reading | best) - log P(reading | second), clipped to [-LogOddsClip, LogOddsClip].
+	LogOdds float64
+}
+
+// Resamples is the number of bootstrap resamples behind Features.Stability.
+const Resamples = 16
+
+// BootstrapBlocks is the most blocks of units the stability bootstrap resamples (see stability).
+const BootstrapBlocks = 32
+
+// LogOddsClip bounds Features.LogOdds.
+const LogOddsClip = 30
+
+// MethodLogisticIsotonic names the calibration method: a logistic score of the features, then
+// an isotonic map of the score (see pb.Calibration).
+const MethodLogisticIsotonic = "logistic-isotonic"
+
+// FeatureNames are the features a calibration uses by default, in coefficient order.
+var FeatureNames = []string{
+	"informative_coverage", "sqrt_informative_coverage", "margin", "stability",
+	"relative_residual", "log1p_used_units", "log_odds",
+}
+
+// Values returns the named features, transformed as their names say.
+func (f Features) Values(names []string) ([]float64, error) {
+	out := make([]float64, len(names))
+	for i, n := range names {
+		switch n {
+		case "informative_coverage":
+			out[i] = f.InformativeCoverage
+		case "sqrt_informative_coverage":
+			out[i] = math.Sqrt(f.InformativeCoverage)
+		case "margin":
+			out[i] = f.Margin
+		case "stability":
+			out[i] = f.Stability
+		case "relative_residual":
+			out[i] = f.RelativeResidual
+		case "log1p_used_units":
+			out[i] = math.Log1p(float64(f.UsedUnits))
+		case "log_odds":
+			out[i] = f.LogOdds
+		default:
+			return nil, fmt.Errorf("unknown placement feature %q", n)
+		}
+	}
+	return out, nil
+}
+
+// calibrationMap is a model's calibration, checked.
+type calibrationMap struct {
+	names              []string
+	coef               []float64
+	thresholds, values []float64
+}
+
+// parseCalibration returns the usable calibration of a model, or nil if it has none or one this
+// build does not understand (then the provisional confidence is used).
+func parseCalibration(c *pb.Calibration) *calibrationMap {
+	if c == nil || c.Method != MethodLogisticIsotonic || len(c.Coefficients) != len(c.Features)+1 ||
+		len(c.Thresholds) == 0 || len(c.Thresholds) != len(c.Values) {
+		return nil
+	}
+	if _, err := (Features{}).Values(c.Features); err != nil {
+		return nil
+	}
+	for i := 1; i < len(c.Thresholds); i++ {
+		if !(c.Thresholds[i] >= c.Thresholds[i-1]) || !(c.Values[i] >= c.Values[i-1]) {
+			return nil
+		}
+	}
+	return &calibrationMap{names: c.Features, coef: c.Coefficients, thresholds: c.Thresholds, values: c.Values}
+}
+
+// CalibrationScore returns the logistic score z = coef[0] + sum_i coef[i+1] * values[i].
+func CalibrationScore(coef, values []float64) float64 {
+	z := coef[0]
+	for i, v := range values {
+		z += coef[i+1] * v
+	}
+	return z
+}
+
+// InterpolateSteps reads the isotonic map given by increasing thresholds and their values at x:
+// linear interpolation between neighbouring thresholds, the end values beyond them (as
+// numpy.interp does, and so scikit-learn's IsotonicRegression with out_of_bounds="clip").
+func InterpolateSteps(thresholds, values []float64, x float64) float64 {
+	n := len(thresholds)
+	if n == 0 {
+		return math.NaN()
+	}
+	if x <= thresholds[0] {
+		return values[0]
+	}
+	if x >= thresholds[n-1] {
+		return values[n-1]
+	}
+	i := sort.SearchFloat64s(thresholds, x) // thresholds[i-1] < x <= thresholds[i]
+	if thresholds[i] == x {
+		// numpy.interp takes the value of the last of equal thresholds.
+		for i+1 < n && thresholds[i+1] == x {
+			i++
+		}
+		return values[i]
+	}
+	x0, x1 := thresholds[i-1], thresholds[i]
+	return values[i-1] + (values[i]-values[i-1])*(x-x0)/(x1-x0)
+}
+
+// confidenceOf maps features to the confidence: the calibrated map if the model has one,
+// otherwise the provisional best share discounted by the number of units.
+func (g *guide) confidenceOf(p *Placement) (float64, bool) {
+	if p.BestGroup == "" {
+		return 0, g.cal != nil
+	}
+	if g.cal != nil {
+		v, err := p.Features.Values(g.cal.names)
+		if err == nil {
+			c := InterpolateSteps(g.cal.thresholds, g.cal.values, CalibrationScore(g.cal.coef, v))
+			return math.Min(1, math.Max(0, c)), true
+		}
+	}
+	return provisionalConfidence(p), false
+}
+
+// provisionalConfidence is the uncalibrated confidence of a model without a calibration: the
+// best share, discounted by how few units were used (half weight at 10 units).
+func provisionalConfidence(p *Placement) float64 {
+	n := float64(p.UsedUnits)
+	return p.Groups[0].Share * n / (n + 10)
+}
+
+// assess fills in what follows from a finished fit: informative coverage, features, confidence,
+// the mixture test and the nearest training witnesses.
+func (m *Model) assess(p *Placement, obs []placement.Observation, readings []Reading) {
+	g := m.guide()
+	k := g.k
+	used := make([]int, 0, len(obs))
+	for _, o := range obs {
+		if un := m.pb.Units[o.Unit]; un.RowStart < un.RowEnd {
+			used = append(used, o.Unit)
+		}
+	}
+	p.InformativeCoverage = g.coverage(used)
+	f := Features{InformativeCoverage: p.InformativeCoverage, RelativeResidual: p.RelativeResidual, UsedUnits: p.UsedUnits}
+	best, second := topTwo(p.Coefficients)
+	if p.BestGroup != "" {
+		f.Margin = p.Groups[0].Share
+		if k > 1 {
+			f.Margin -= p.Groups[1].Share
+		}
+		f.Stability = m.stability(g, obs, best)
+	}
+	ll := make([]float64, k)
+	for _, o := range obs {
+		g.logLik(ll, o.Unit, o.Row, m)
+	}
+	if k > 1 && p.BestGroup != "" {
+		f.LogOdds = math.Max(-LogOddsClip, math.Min(LogOddsClip, ll[best]-ll[second]))
+	}
+	p.Features = f
+	p.Confidence, p.Calibrated = g.confidenceOf(p)
+	if k > 1 && p.BestGroup != "" {
+		p.Mixture = m.mixtureTest(g, obs, best, second, p.Groups[1].Share)
+		p.Mixed = p.Mixture.Mixed
+	}
+	p.Nearest = m.Nearest(readings, NearestWitnesses)
+}
+
+// topTwo returns the indexes of the largest and second largest entries (ties to the lower
+// index), as the sort of Placement.Groups orders them.
+func topTwo(h []float64) (int, int) {
+	best, second := 0, -1
+	for i := 1; i < len(h); i++ {
+		if h[i] > h[best] {
+			best, second = i, best
+		} else if second < 0 || h[i] > h[second] {
+			second = i
+		}
+	}
+	if second < 0 {
+		second = best
+	}
+	return best, second
+}
+
+// bootScratch is the per-goroutine memory of the stability resampling.
+type bootScratch struct {
+	blocks, cross []float64 // per used observation: packed Gram block and W_u^T v_u
+	packed        []float64
+	g, c, h       []float64
+	counts        []int
+	solver        *nnls.Solver
+}
+
+var bootPools sync.Map // k -> *sync.Pool of *bootScratch
+
+func getScratch(k int) *bootScratch {
+	pi, _ := bootPools.LoadOrStore(k, &sync.Pool{New: func() any {
+		tri := k * (k + 1) / 2
+		return &bootScratch{packed: make([]float64, tri), g: make([]float64, k*k), c: make([]float64, k), h: make([]float64, k), solver: nnls.NewSolver(k)}
+	}})
+	return pi.(*sync.Pool).Get().(*bootScratch)
+}
+
+func putScratch(k int, s *bootScratch) {
+	if pi, ok := bootPools.Load(k); ok {
+		pi.(*sync.Pool).Put(s)
+	}
+}
+
+// stability is the share of Resamples bootstrap resamples of the used observations whose NNLS
+// placement has its largest coefficient in group best. The used units are dealt at random into
+// m = min(n, BootstrapBlocks) blocks of near-equal size, and each resample draws m blocks with
+// replacement, a block drawn c times entering the normal equations c times. With m = n (up to
+// BootstrapBlocks units) this is the plain bootstrap of the units; beyond, it is the bootstrap of
+// random groups of units, whose sums are independent and alike, so the spread of the resampled
+// fit is preserved while a resample costs O(m k^2) however many units the witness has. The draws
+// are seeded by the observations themselves, so the same witness always gets the same value.
+func (m *Model) stability(g *guide, obs []placement.Observation, best int) float64 {
+	k := g.k
+	tri := k * (k + 1) / 2
+	prof := m.pb.Profile
+	seed := uint64(0x5eed)
+	n := 0
+	for _, o := range obs {
+		if un := m.pb.Units[o.Unit]; un.RowStart < un.RowEnd {
+			seed += mix64(uint64(o.Unit)<<32 ^ uint64(uint32(o.Row)))
+			n++
+		}
+	}
+	if n == 0 {
+		return 0
+	}
+	rng := rand.New(rand.NewPCG(seed, 0x73746162696c6974)) // "stabilit"
+	nb := min(n, BootstrapBlocks)
+	s := getScratch(k)
+	defer putScratch(k, s)
+	if cap(s.blocks) < nb*tri {
+		s.blocks = make([]float64, nb*tri)
+	}
+	if cap(s.cross) < nb*k {
+		s.cross = make([]float64, nb*k)
+	}
+	if cap(s.counts) < max(n, nb) {
+		s.counts = make([]int, max(n, nb))
+	}
+	blocks, cross := s.blocks[:nb*tri], s.cross[:nb*k]
+	clear(blocks)
+	clear(cross)
+	// Deal the units into blocks: a random permutation of positions, position i to block i mod nb.
+	order := s.counts[:n]
+	for i := range order {
+		order[i] = i
+	}
+	for i := n - 1; i > 0; i-- {
+		j := rng.IntN(i + 1)
+		order[i], order[j] = order[j], order[i]
+	}
+	i := 0
+	for _, o := range obs {
+		if un := m.pb.Units[o.Unit]; un.RowStart == un.RowEnd {
+			continue
+		}
+		b := order[i] % nb
+		i++
+		blk := blocks[b*tri : (b+1)*tri]
+		ug := g.unitGram[g.gramIndex[o.Unit]*tri:]
+		for t := range blk {
+			blk[t] += ug[t]
+		}
+		if o.Row >= 0 {
+			w := m.pb.Rows[o.Row].Weight
+			row := prof[o.Row*k : o.Row*k+k]
+			cb := cross[b*k : (b+1)*k]
+			for j := 0; j < k; j++ {
+				cb[j] += w * row[j]
+			}
+		}
+	}
+	counts := s.counts[:nb]
+	same := 0
+	for r := 0; r < Resamples; r++ {
+		clear(counts)
+		for i := 0; i < nb; i++ {
+			counts[rng.IntN(nb)]++
+		}
+		clear(s.packed)
+		clear(s.c)
+		for b, c := range counts {
+			if c == 0 {
+				continue
+			}
+			fc := float64(c)
+			blk := blocks[b*tri : (b+1)*tri]
+			for t := range s.packed {
+				s.packed[t] += fc * blk[t]
+			}
+			cb := cross[b*k : (b+1)*k]
+			for j := range s.c {
+				s.c[j] += fc * cb[j]
+			}
+		}
+		p := 0
+		for a := 0; a < k; a++ {
+			for c := a; c < k; c++ {
+				s.g[a*k+c] = s.packed[p]
+				s.g[c*k+a] = s.packed[p]
+				p++
+			}
+		}
+		if err := s.solver.SolveGram(s.g, s.c, s.h); err != nil {
+			continue
+		}
+		top, _ := topTwo(s.h)
+		if s.h[top] > 0 && top == best {
+			same++
+		}
+	}
+	return float64(same) / Resamples
+}
+
+// mix64 is the splitmix64 finaliser (Steele, Lea & Flood 2014; from memory).
+func mix64(z uint64) uint64 {
+	z += 0x9e3779b97f4a7c15
+	z = (z ^ (z >> 30)) * 0xbf58476d1ce4e5b9
+	z = (z ^ (z >> 27)) * 0x94d049bb133111eb
+	return z ^ (z >> 31)
+}

@@ -1,0 +1,199 @@
+package model
+
+import (
+	"math"
+	"sort"
+
+	"strayleaf/placement"
+)
+
+// Mixture (contamination, common practice): a copyist who took readings from two exemplars leaves
+// a witness between groups, and its NNLS shares estimate the mixture. A placement is flagged
+// mixed when the second share is substantial and the readings support it:
+//
+//  1. substantial: the second group's share is at least MixedShare;
+//  2. supported: a likelihood-ratio test of "a mixture of the top two groups" against "either of
+//     them alone" rejects at level 0.05. Under the groups' reading probabilities (see
+//     ReadingProbabilities) a witness taking each unit from the second group with probability s
+//     has log-likelihood
+//
+//     l(s) = sum_u log((1 - s) P(r_u | first) + s P(r_u | second)),
+//
+//     concave in s. The statistic is LR = 2 (max_s l(s) - max(l(0), l(1))). With the null on the
+//     boundary of the parameter space LR is distributed as the 50:50 mixture of chi^2_0 and
+//     chi^2_1 (Chernoff 1954, Ann. Math. Statist. 25; Self & Liang 1987, JASA 82; from memory),
+//     whose 0.95 quantile is the 0.90 quantile of chi^2_1, MixtureCritical.
+
+// MixedShare is the least second share for a placement to be flagged mixed.
+const MixedShare = 0.15
+
+// MixtureCritical is the chi^2_1 0.90 quantile (scipy.stats.chi2.ppf(0.9, 1)), the 0.05 critical
+// value of the boundary likelihood-ratio test.
+const MixtureCritical = 2.705543454095404
+
+// Mixture is the mixture reading of a placement.
+type Mixture struct {
+	// Primary and Secondary are the groups of the two largest shares; Share is the secondary's.
+	Primary, Secondary string
+	Share              float64
+	// LikelihoodShare is the maximum-likelihood share of the secondary group under the reading
+	// probabilities; LikelihoodRatio the test statistic LR.
+	LikelihoodShare float64
+	LikelihoodRatio float64
+	// Mixed is Share >= MixedShare and LikelihoodRatio >= MixtureCritical.
+	Mixed bool
+}
+
+// mixtureTest runs the test for the groups a (first) and b (second) over the used observations.
+func (m *Model) mixtureTest(g *guide, obs []placement.Observation, a, b int, share float64) *Mixture {
+	k := g.k
+	pa := make([]float64, 0, len(obs))
+	pbv := make([]float64, 0, len(obs))
+	for _, o := range obs {
+		un := m.pb.Units[o.Unit]
+		if un.RowStart == un.RowEnd {
+			continue
+		}
+		var row []float64
+		if o.Row >= 0 {
+			row = g.prob[o.Row*k : o.Row*k+k]
+		} else {
+			row = g.other[o.Unit*k : o.Unit*k+k]
+		}
+		pa = append(pa, row[a])
+		pbv = append(pbv, row[b])
+	}
+	s, lr := mixtureLR(pa, pbv)
+	mx := &Mixture{Primary: m.groupIDs[a], Secondary: m.groupIDs[b], Share: share, LikelihoodShare: s, LikelihoodRatio: lr}
+	mx.Mixed = share >= MixedShare && lr >= MixtureCritical
+	return mx
+}
+
+// mixtureLR maximises l(s) = sum_i log((1-s) a_i + s b_i) over s in [0, 1] by bisection on its
+// derivative (decreasing, as l is concave) and returns the maximiser and 2 (l(s) - max(l(0),
+// l(1))). All a_i, b_i must be positive.
+func mixtureLR(a, b []float64) (float64, float64) {
+	ll := func(s float64) float64 {
+		t := 0.0
+		for i := range a {
+			t += math.Log((1-s)*a[i] + s*b[i])
+		}
+		return t
+	}
+	d := func(s float64) float64 {
+		t := 0.0
+		for i := range a {
+			t += (b[i] - a[i]) / ((1-s)*a[i] + s*b[i])
+		}
+		return t
+	}
+	if len(a) == 0 {
+		return 0, 0
+	}
+	var s float64
+	switch {
+	case d(0) <= 0:
+		s = 0
+	case d(1) >= 0:
+		s = 1
+	default:
+		lo, hi := 0.0, 1.0
+		for it := 0; it < 60 && hi-lo > 1e-12; it++ {
+			mid := (lo + hi) / 2
+			if d(mid) > 0 {
+				lo = mid
+			} else {
+				hi = mid
+			}
+		}
+		s = (lo + hi) / 2
+	}
+	return s, math.Max(0, 2*(ll(s)-math.Max(ll(0), ll(1))))
+}
+
+// NearestWitnesses is the number of nearest training witnesses a placement names.
+const NearestWitnesses = 5
+
+// Neighbour is a training witness compared with a placed witness by agreement (common practice):
+// Agree of the Compared units at which both have a reading are the same reading.
+type Neighbour struct {
+	Witness   string
+	BestGroup string
+	Agree     int
+	Compared  int
+	// Agreement is Agree / Compared.
+	Agreement float64
+}
+
+// Nearest returns the n training witnesses that agree most with the given readings, the trade's
+// familiar cross-check of a placement. Every unit counts, set-aside readings and units included;
+// a reading the model has never seen agrees with no one. A share over few units means little, so
+// only training witnesses compared at no fewer than half as many units as the best-compared one
+// are ranked; among them higher agreement comes first, then more units compared, then the
+// siglum. Readings at units the model does not know are ignored.
+func (m *Model) Nearest(readings []Reading, n int) []Neighbour {
+	if n <= 0 || len(m.pb.TrainingWitnesses) == 0 {
+		return nil
+	}
+	g := m.guide()
+	type cell struct {
+		u int
+		r int32
+	}
+	cells := make([]cell, 0, len(readings))
+	for _, rd := range readings {
+		u, ok := m.unitIndex[rd.Unit]
+		if !ok {
+			continue
+		}
+		r, ok := g.readingIndex[u][rd.Reading]
+		if !ok {
+			r = -2 // a reading no training witness has
+		}
+		cells = append(cells, cell{u, r})
+	}
+	out := make([]Neighbour, 0, len(m.pb.TrainingWitnesses))
+	maxCompared := 0
+	for _, tw := range m.pb.TrainingWitnesses {
+		nb := Neighbour{Witness: tw.Witness, BestGroup: tw.BestGroup}
+		for _, c := range cells {
+			if c.u >= len(tw.Cells) {
+				continue
+			}
+			t := tw.Cells[c.u]
+			if t < 0 {
+				continue
+			}
+			nb.Compared++
+			if t == c.r {
+				nb.Agree++
+			}
+		}
+		if nb.Compared == 0 {
+			continue
+		}
+		nb.Agreement = float64(nb.Agree) / float64(nb.Compared)
+		maxCompared = max(maxCompared, nb.Compared)
+		out = append(out, nb)
+	}
+	kept := out[:0]
+	for _, nb := range out {
+		if 2*nb.Compared >= maxCompared {
+			kept = append(kept, nb)
+		}
+	}
+	sort.Slice(kept, func(i, j int) bool {
+		a, b := kept[i], kept[j]
+		if a.Agreement != b.Agreement {
+			return a.Agreement > b.Agreement
+		}
+		if a.Compared != b.Compared {
+			return a.Compared > b.Compared
+		}
+		return a.Witness < b.Witness
+	})
+	if len(kept) > n {
+		kept = kept[:n]
+	}
+	return append([]Neighbour(nil), kept...)
+}
