@@ -84,7 +84,6 @@ type Fit struct {
 type Engine struct {
 	k, nRows int
 	weight   []float64
-	w2       []float64 // w_r^2
 	units    []unitInfo
 	blocks   []float64 // per unit with rows: packed upper triangle of W_u^T W_u, then w_r W[r,:] for its rows
 	full     []float64 // packed upper triangle of the full Gram W^T W
@@ -149,11 +148,12 @@ func NewEngine(W *mat.Dense, unitRows [][2]int, rowWeights []float64) (*Engine, 
 	if len(e.rowUnits) == 0 {
 		return nil, errors.New("placement: no unit has rows")
 	}
-	// Unit by unit, the packed Gram block followed by the unit's weighted rows, so that a
-	// placement reads one stretch of memory per covered unit.
+	// Unit by unit, the packed Gram block followed by the unit's rows (w_r W[r,:], w_r^2), so
+	// that a placement reads one stretch of memory per covered unit, and summing the rows of the
+	// known readings gives c_C and v_C^T v_C at once.
 	size := 0
 	for _, u := range e.rowUnits {
-		size += e.tri + (unitRows[u][1]-unitRows[u][0])*k
+		size += e.tri + (unitRows[u][1]-unitRows[u][0])*(k+1)
 	}
 	if size > math.MaxInt32 {
 		return nil, fmt.Errorf("placement: a model of %d units, %d rows and %d groups is too large (offsets are 32-bit)", len(unitRows), nRows, k)
@@ -175,18 +175,16 @@ func NewEngine(W *mat.Dense, unitRows [][2]int, rowWeights []float64) (*Engine, 
 					p++
 				}
 			}
+			wr := wv[(r-unitRows[u][0])*(k+1):]
 			for j, v := range row {
-				wv[(r-unitRows[u][0])*k+j] = e.weight[r] * v
+				wr[j] = e.weight[r] * v
 			}
+			wr[k] = e.weight[r] * e.weight[r]
 		}
 		for i, v := range blk {
 			e.full[i] += v
 		}
-		off += e.tri + (unitRows[u][1]-unitRows[u][0])*k
-	}
-	e.w2 = make([]float64, nRows)
-	for r, wt := range e.weight {
-		e.w2[r] = wt * wt
+		off += e.tri + (unitRows[u][1]-unitRows[u][0])*(k+1)
 	}
 	return e, nil
 }
@@ -217,9 +215,11 @@ type Workspace struct {
 	rows    []int32   // offsets of the weighted rows of the known readings
 	offMult []float64 // multiplicities of the blocks and rows (PlaceWeighted)
 	rowMult []float64
-	g, c    []float64 // the last placement's normal equations: G_C (k x k) and c_C
+	g       []float64 // the last placement's normal equations: G_C (k x k),
+	cv      []float64 // (c_C, v_C^T v_C),
+	c       []float64 // c_C = cv[:k]
 	h       []float64
-	vv      float64
+	vv      float64 // v_C^T v_C = cv[k]
 	solver  *nnls.Solver
 	valid   bool
 }
@@ -230,7 +230,7 @@ func (e *Engine) NewWorkspace() *Workspace {
 		e: e, mark: make([]uint32, len(e.units)), packed: make([]float64, e.tri),
 		offs: make([]int32, 0, len(e.rowUnits)), rows: make([]int32, 0, len(e.rowUnits)),
 		offMult: make([]float64, 0, len(e.rowUnits)), rowMult: make([]float64, 0, len(e.rowUnits)),
-		g: make([]float64, e.k*e.k), c: make([]float64, e.k), h: make([]float64, e.k),
+		g: make([]float64, e.k*e.k), cv: make([]float64, e.k+1), h: make([]float64, e.k),
 		solver: nnls.NewSolver(e.k),
 	}
 }
@@ -264,7 +264,7 @@ func (e *Engine) Place(obs []Observation, ws *Workspace) (Fit, error) {
 		}
 	}
 	// c_C = sum of w_r W[r,:] over the known readings.
-	sumRows(ws.c, e.blocks, ws.rows)
+	sumRows(ws.cv, e.blocks, ws.rows)
 	e.unpack(ws)
 	if fit.UsedUnits > missing {
 		// After subtraction a column whose covered entries are all zero keeps a rounding residue
@@ -304,7 +304,7 @@ func (e *Engine) PlaceWeighted(obs []Observation, mult []float64, ws *Workspace)
 		return Fit{}, err
 	}
 	sumRowsScaled(ws.packed, e.blocks, ws.offs, ws.offMult)
-	sumRowsScaled(ws.c, e.blocks, ws.rows, ws.rowMult)
+	sumRowsScaled(ws.cv, e.blocks, ws.rows, ws.rowMult)
 	e.unpack(ws)
 	return e.solve(fit, ws)
 }
@@ -324,7 +324,6 @@ func (e *Engine) gather(obs []Observation, mult []float64, ws *Workspace) (Fit, 
 	}
 	gen := ws.gen
 	used, unknown, nk := 0, 0, 0
-	vv := 0.0
 	offs, rows := ws.offs[:cap(ws.offs)], ws.rows[:cap(ws.rows)]
 	offMult, rowMult := ws.offMult[:cap(ws.offMult)], ws.rowMult[:cap(ws.rowMult)]
 	for i, o := range obs {
@@ -360,16 +359,14 @@ func (e *Engine) gather(obs []Observation, mult []float64, ws *Workspace) (Fit, 
 		if mult != nil {
 			rowMult[nk] = m
 		}
-		rows[nk] = ui.off + int32(e.tri+(o.Row-lo)*e.k)
+		rows[nk] = ui.off + int32(e.tri+(o.Row-lo)*(e.k+1))
 		nk++
-		vv += m * e.w2[o.Row]
 	}
 	ws.offs, ws.rows = offs[:used], rows[:nk]
 	ws.offMult, ws.rowMult = offMult[:used], rowMult[:nk]
 	if used == 0 {
 		return Fit{}, fmt.Errorf("%w (%d units observed, none with readings in the model)", ErrNoCoverage, len(obs))
 	}
-	ws.vv = vv
 	return Fit{CoveredUnits: len(obs), UsedUnits: used, UnknownReadings: unknown}, nil
 }
 
@@ -388,6 +385,8 @@ func (e *Engine) unpack(ws *Workspace) {
 
 // solve runs the NNLS on the normal equations in ws and completes fit.
 func (e *Engine) solve(fit Fit, ws *Workspace) (Fit, error) {
+	k := e.k
+	ws.c, ws.vv = ws.cv[:k], ws.cv[k]
 	if err := ws.solver.SolveGram(ws.g, ws.c, ws.h); err != nil {
 		return Fit{}, fmt.Errorf("placement: solving for the group coefficients: %w", err)
 	}
