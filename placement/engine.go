@@ -83,9 +83,8 @@ type Fit struct {
 // for concurrent use by many goroutines, each with its own Workspace.
 type Engine struct {
 	k, nRows int
-	weight   []float64
 	units    []unitInfo
-	blocks   []float64 // per unit with rows: packed upper triangle of W_u^T W_u, then w_r W[r,:] for its rows
+	blocks   []float64 // per unit with rows: packed upper triangle of W_u^T W_u, then (w_r W[r,:], w_r^2) for each of its rows
 	full     []float64 // packed upper triangle of the full Gram W^T W
 	rowUnits []int32   // units that have rows, in order
 	tri      int       // k(k+1)/2
@@ -108,13 +107,14 @@ func NewEngine(W *mat.Dense, unitRows [][2]int, rowWeights []float64) (*Engine, 
 		return nil, errors.New("placement: no units")
 	}
 	e := &Engine{
-		k: k, nRows: nRows, weight: make([]float64, nRows),
+		k: k, nRows: nRows,
 		units: make([]unitInfo, len(unitRows)), tri: k * (k + 1) / 2,
 	}
 	if nRows*k > math.MaxInt32 || len(unitRows)*e.tri > math.MaxInt32 {
 		return nil, fmt.Errorf("placement: a model of %d units, %d rows and %d groups is too large (offsets are 32-bit)", len(unitRows), nRows, k)
 	}
 	w := make([]float64, nRows*k) // W row-major
+	weight := make([]float64, nRows)
 	for r := range nRows {
 		for j := range k {
 			v := W.At(r, j)
@@ -127,7 +127,7 @@ func NewEngine(W *mat.Dense, unitRows [][2]int, rowWeights []float64) (*Engine, 
 		if !(wt >= 0) || math.IsInf(wt, 0) {
 			return nil, fmt.Errorf("placement: weight of row %d is %v; expected a finite non-negative number", r, wt)
 		}
-		e.weight[r] = wt
+		weight[r] = wt
 	}
 	prevEnd := 0
 	for u, ur := range unitRows {
@@ -177,9 +177,9 @@ func NewEngine(W *mat.Dense, unitRows [][2]int, rowWeights []float64) (*Engine, 
 			}
 			wr := wv[(r-unitRows[u][0])*(k+1):]
 			for j, v := range row {
-				wr[j] = e.weight[r] * v
+				wr[j] = weight[r] * v
 			}
-			wr[k] = e.weight[r] * e.weight[r]
+			wr[k] = weight[r] * weight[r]
 		}
 		for i, v := range blk {
 			e.full[i] += v
