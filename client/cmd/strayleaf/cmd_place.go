@@ -122,6 +122,7 @@ func runPlace(ctx context.Context, args []string, stdout, stderr io.Writer) erro
 	remote := addRemoteFlags(fs)
 	path := fs.String("witnesses", "", "witnesses to place, in the collation form (long CSV or TEI); every witness in it is placed")
 	inFormat := fs.String("witnesses-format", "", "format of --witnesses: csv or tei (default: by extension)")
+	copt := addCollationFlags(fs)
 	asJSON := fs.Bool("json", false, "print JSON lines, one object per witness (same as --format json)")
 	outFormat := fs.String("format", "table", "output: table, json (JSON lines), csv or tei")
 	if err := fs.Parse(args); err != nil {
@@ -133,7 +134,7 @@ func runPlace(ctx context.Context, args []string, stdout, stderr io.Writer) erro
 	if *asJSON {
 		*outFormat = "json"
 	}
-	in, err := readCollation(*path, *inFormat)
+	in, err := readCollationWith(*path, *inFormat, copt)
 	if err != nil {
 		return err
 	}

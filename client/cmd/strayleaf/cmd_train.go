@@ -64,6 +64,7 @@ func runTrain(ctx context.Context, args []string, stdout, stderr io.Writer) erro
 	fs := newFlags("train", "train --collation FILE --groups K [--seed N] [--restarts R] [--no-idf] [--min-support N] [--min-coverage F] --out BUNDLE [--json]", stderr)
 	path := fs.String("collation", "", "collation file (long CSV or TEI P5 .xml)")
 	format := fs.String("format", "", "collation format: csv or tei (default: by extension)")
+	copt := addCollationFlags(fs)
 	k := fs.Int("groups", 0, "number of groups K to learn (see 'strayleaf rank' for help choosing it)")
 	seed := fs.Uint64("seed", 1, "random seed (same seed, same model)")
 	restarts := fs.Int("restarts", 4, "runs from different starts (the first from NNDSVD, the others random); the best fit is kept")
@@ -86,7 +87,7 @@ func runTrain(ctx context.Context, args []string, stdout, stderr io.Writer) erro
 		return usageError("train", "--out is required")
 	}
 	popt.IDF = !*noIDF
-	src, err := readCollation(*path, *format)
+	src, err := readCollationWith(*path, *format, copt)
 	if err != nil {
 		return err
 	}

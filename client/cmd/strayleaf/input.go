@@ -1,6 +1,7 @@
 package main
 
 import (
+	"bytes"
 	"crypto/sha256"
 	"encoding/hex"
 	"encoding/json"
@@ -11,6 +12,7 @@ import (
 	"strings"
 
 	"strayleaf/placement/collation"
+	"strayleaf/placement/tei"
 )
 
 // collationSource is a collation read from a file, with the SHA-256 of the file's bytes.
@@ -18,19 +20,37 @@ type collationSource struct {
 	Path   string
 	SHA256 string
 	C      *collation.Collation
+	// Format is "csv" or "tei"; TEI is what the TEI reader found (nil for CSV) and MergeTypes
+	// the reading types it was told to merge.
+	Format     string
+	TEI        *tei.Report
+	MergeTypes []string
 }
 
-// readCollation reads a collation file. The format is "csv", "tei", or "" to choose by the
-// extension (.xml and .tei are TEI, everything else the long CSV form).
+// readCollation reads a collation file with the default reading options. The format is "csv",
+// "tei", or "" to choose by the extension (.xml and .tei are TEI, everything else the long CSV
+// form).
 func readCollation(path, format string) (*collationSource, error) {
+	return readCollationWith(path, format, defaultCollationOptions())
+}
+
+// readCollationWith is readCollation with the options given on the command line.
+func readCollationWith(path, format string, o *collationOptions) (*collationSource, error) {
 	b, err := os.ReadFile(path)
 	if err != nil {
 		return nil, err
 	}
-	return parseCollation(b, path, format)
+	return parseCollationWith(b, path, format, o)
 }
 
 func parseCollation(b []byte, name, format string) (*collationSource, error) {
+	return parseCollationWith(b, name, format, defaultCollationOptions())
+}
+
+func parseCollationWith(b []byte, name, format string, o *collationOptions) (*collationSource, error) {
+	if o == nil {
+		o = defaultCollationOptions()
+	}
 	sum := sha256.Sum256(b)
 	if format == "" {
 		switch strings.ToLower(filepath.Ext(name)) {
@@ -40,20 +60,21 @@ func parseCollation(b []byte, name, format string) (*collationSource, error) {
 			format = "csv"
 		}
 	}
-	var c *collation.Collation
+	src := &collationSource{Path: name, SHA256: hex.EncodeToString(sum[:]), Format: format}
 	var err error
 	switch format {
 	case "csv":
-		c, err = collation.ReadCSV(strings.NewReader(string(b)), name)
+		src.C, err = collation.ReadCSV(bytes.NewReader(b), name)
 	case "tei":
-		c, err = readTEI(b, name)
+		src.MergeTypes = o.MergeTypes
+		src.C, src.TEI, err = readTEI(b, name, o)
 	default:
 		return nil, fmt.Errorf("--format %q: expected csv or tei", format)
 	}
 	if err != nil {
 		return nil, err
 	}
-	return &collationSource{Path: name, SHA256: hex.EncodeToString(sum[:]), C: c}, nil
+	return src, nil
 }
 
 // writeJSON writes v as one line of JSON.

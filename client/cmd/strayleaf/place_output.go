@@ -6,6 +6,8 @@ import (
 	"io"
 	"strconv"
 	"strings"
+
+	"strayleaf/placement/tei"
 )
 
 // writePlacementsCSV writes one row per witness: witness, best_group, confidence, covered_units,
@@ -25,7 +27,28 @@ func writePlacementsCSV(w io.Writer, results []placementJSON) error {
 	return cw.Error()
 }
 
-// writePlacementsTEI is filled by the TEI output; until then it refuses.
+// writePlacementsTEI writes the placements as a TEI P5 witness list (see tei.WritePlacements):
+// each witness with its best group, shares and coverage as <note>s and the confidence as the
+// degree of a <certainty>; a witness that could not be placed with its error.
 func writePlacementsTEI(w io.Writer, results []placementJSON) error {
-	return fmt.Errorf("--format tei: not available yet")
+	ref := ""
+	ps := make([]tei.PlacedWitness, 0, len(results))
+	for _, r := range results {
+		if ref == "" {
+			ref = r.Model
+		}
+		p := tei.PlacedWitness{Witness: r.Witness, Error: r.Error}
+		if r.Error == "" {
+			p.BestGroup, p.Confidence = r.BestGroup, r.Confidence
+			p.CoveredUnits, p.UsedUnits, p.UnknownReadings = r.CoveredUnits, r.UsedUnits, len(r.UnknownReadings)
+			for _, g := range r.Groups {
+				p.Shares = append(p.Shares, tei.GroupShare{Group: g.Group, Share: g.Share})
+			}
+		}
+		ps = append(ps, p)
+	}
+	if err := tei.WritePlacements(w, ref, ps); err != nil {
+		return fmt.Errorf("--format tei: %w", err)
+	}
+	return nil
 }
