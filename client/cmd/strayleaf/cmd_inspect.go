@@ -34,6 +34,8 @@ type inspectReport struct {
 	KeptReadings     int              `json:"kept_readings"`
 	TrainWitnesses   int              `json:"training_witnesses"`
 	PrepareError     string           `json:"prepare_error,omitempty"`
+	// TEI is what the TEI reader found (absent for a CSV collation).
+	TEI *inspectTEI `json:"tei,omitempty"`
 }
 
 type setAsideJSON struct {
@@ -46,6 +48,7 @@ func runInspect(ctx context.Context, args []string, stdout, stderr io.Writer) er
 	fs := newFlags("inspect", "inspect --collation FILE [--format csv|tei] [--min-support N] [--min-coverage F] [--json]", stderr)
 	path := fs.String("collation", "", "collation file (long CSV `witness,unit,reading[,section]`, or TEI P5 .xml)")
 	format := fs.String("format", "", "collation format: csv or tei (default: by extension)")
+	copt := addCollationFlags(fs)
 	asJSON := fs.Bool("json", false, "print one JSON object")
 	popt := prepare.DefaultOptions()
 	fs.IntVar(&popt.MinSupport, "min-support", popt.MinSupport, "least witnesses a reading needs to be kept")
@@ -56,13 +59,13 @@ func runInspect(ctx context.Context, args []string, stdout, stderr io.Writer) er
 	if *path == "" {
 		return usageError("inspect", "--collation is required")
 	}
-	src, err := readCollation(*path, *format)
+	src, err := readCollationWith(*path, *format, copt)
 	if err != nil {
 		return err
 	}
 	c := src.C
 	rep := inspectReport{Collation: src.Path, SHA256: src.SHA256, Witnesses: c.NumWitnesses(), Units: c.NumUnits(),
-		Readings: c.NumReadings(), Lacunae: c.Lacunae(), Sections: c.Sections()}
+		Readings: c.NumReadings(), Lacunae: c.Lacunae(), Sections: c.Sections(), TEI: inspectTEIOf(src)}
 	if rep.Sections == nil {
 		rep.Sections = []string{}
 	}
@@ -103,6 +106,11 @@ func runInspect(ctx context.Context, args []string, stdout, stderr io.Writer) er
 			len(p.Report.SingularReadings), len(p.Report.UninformativeUnits), len(p.Report.FragmentaryWitnesses))
 	}
 	tw.Flush()
+	if rep.TEI != nil {
+		if err := writeInspectTEI(stdout, rep.TEI); err != nil {
+			return err
+		}
+	}
 	if perr == nil && len(p.Report.FragmentaryWitnesses) > 0 {
 		fmt.Fprintln(stdout, "\nfragmentary witnesses (placed after training, not trained on):")
 		tw = tabwriter.NewWriter(stdout, 0, 0, 2, ' ', 0)
