@@ -189,7 +189,7 @@ func TestCrashSafety(t *testing.T) {
 		}
 		checkAfterCrash(t, round, path, committed, maybeGone)
 	}
-	if published < kills {
+	if published < kills/2 { // every even round waits for a committed version
 		t.Errorf("the children committed only %d versions over %d kills", published, kills)
 	}
 	t.Logf("%d kills, %d versions published, %d left", kills, published, len(committed))

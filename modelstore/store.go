@@ -9,6 +9,7 @@ import (
 	"os"
 	"sort"
 	"strings"
+	"sync/atomic"
 	"time"
 
 	bolt "go.etcd.io/bbolt"
@@ -71,6 +72,7 @@ type Store struct {
 	readOnly bool
 	cache    *modelCache
 	now      func() time.Time
+	closed   atomic.Bool
 }
 
 // PublishMeta is what a publisher says about a new version.
@@ -246,8 +248,12 @@ func (s *Store) init() error {
 	})
 }
 
-// Close releases the file. Models handed out stay usable.
-func (s *Store) Close() error { return s.db.Close() }
+// Close releases the file (waiting for reads under way). Models handed out stay usable; calls
+// on the closed Store fail. Closing twice is harmless.
+func (s *Store) Close() error {
+	s.closed.Store(true)
+	return s.db.Close()
+}
 
 // Path returns the store file's path.
 func (s *Store) Path() string { return s.path }
@@ -546,6 +552,9 @@ func (s *Store) Bundle(ref string) ([]byte, VersionInfo, error) {
 // model is shared and immutable. On a cache miss the bundle is read, its SHA-256 checked and it
 // is decoded once for all concurrent callers.
 func (s *Store) Model(ref string) (*model.Model, Ref, error) {
+	if s.closed.Load() {
+		return nil, Ref{}, fmt.Errorf("reading %s: %w", ref, berrors.ErrDatabaseNotOpen)
+	}
 	if m, r, ok := s.cache.lookup(ref); ok {
 		return m, r, nil
 	}
@@ -810,7 +819,10 @@ func (s *Store) DeleteVersion(name string, version int, by string) error {
 		}
 		if len(pointing) > 0 {
 			sort.Strings(pointing)
-			return fmt.Errorf("%w: alias %s points at it; move the alias first", ErrAliased, strings.Join(pointing, ", "))
+			if len(pointing) == 1 {
+				return fmt.Errorf("%w: alias %s points at it; move or remove the alias first", ErrAliased, pointing[0])
+			}
+			return fmt.Errorf("%w: aliases %s point at it; move or remove them first", ErrAliased, strings.Join(pointing, ", "))
 		}
 		info, err := decodeInfo(r, vb.Get(keyInfo))
 		if err != nil {

@@ -85,9 +85,15 @@ func TestPublishResolveAndRead(t *testing.T) {
 	}
 	mustVerify(t, s)
 
-	// Reopening finds everything again.
+	// A closed store refuses reads, cached or not; reopening finds everything again.
 	path := s.Path()
 	s.Close()
+	if _, _, err := s.Model("tradition-a"); err == nil {
+		t.Error("Model on a closed store answered from the cache")
+	}
+	if s.Close() != nil {
+		t.Error("closing twice failed")
+	}
 	s, err = Open(path, Options{})
 	if err != nil {
 		t.Fatal(err)
