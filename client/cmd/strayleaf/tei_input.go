@@ -19,6 +19,9 @@ var defaultMergeTypes = []string{"orthographic", "nonsense"}
 type collationOptions struct {
 	// MergeTypes are the TEI reading types merged into their parent reading.
 	MergeTypes []string
+	// SiglumAttr names the <witness> attribute that gives the siglum when present ("" for the
+	// xml:id).
+	SiglumAttr string
 }
 
 func defaultCollationOptions() *collationOptions {
@@ -32,6 +35,8 @@ func addCollationFlags(fs *flag.FlagSet) *collationOptions {
 	fs.Var((*mergeTypesFlag)(o), "merge-types",
 		"TEI reading @type values merged into their parent reading, comma-separated; orthographic and nonsense readings are merged by default, "+
 			"since they are usually not let split groups; \"\" keeps every type a reading of its own")
+	fs.StringVar(&o.SiglumAttr, "siglum-attr", "",
+		"TEI <witness> attribute that gives the siglum when present, such as n (default: the xml:id; strayleaf's own TEI keeps sigla that are no XML names in n)")
 	return o
 }
 
@@ -66,7 +71,7 @@ func (f *mergeTypesFlag) Set(v string) error {
 
 // teiOptions turns the command-line settings into the TEI reader's options.
 func (o *collationOptions) teiOptions() tei.Options {
-	var opt tei.Options
+	opt := tei.Options{SiglumAttr: o.SiglumAttr}
 	if len(o.MergeTypes) > 0 {
 		opt.TypeActions = make(map[string]tei.Action, len(o.MergeTypes))
 		for _, t := range o.MergeTypes {
