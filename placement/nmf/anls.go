@@ -9,7 +9,7 @@ import (
 
 // run is one factorisation from given initial factors: the ANLS iterations on a problem.
 type run struct {
-	p       *problem
+	p       *Problem
 	k, kp   int   // rank and the length of a packed upper triangle, k(k+1)/2
 	off     []int // off[i]: start of row i of a packed upper triangle, minus i
 	workers int
@@ -22,6 +22,7 @@ type run struct {
 	hht   []float64 // packed H H^T
 	gcls  []float64 // per class: full k x k Gram matrix of its rows in the W step
 	parts []float64 // per block: packed partial sums of H H^T
+	cols  []int32   // 0..n-1
 	fcol  []float64 // per column: objective terms (H step)
 	frow  []float64 // per row: objective terms (W step)
 	ws    []workspace
@@ -33,12 +34,13 @@ type workspace struct {
 	g      []float64 // k x k
 	gp     []float64 // packed
 	c, x   []float64
+	pred   []float64 // a row of W H (objective)
 }
 
 // hhtBlock is the number of columns per block in the fixed-order reduction of H H^T.
 const hhtBlock = 64
 
-func newRun(p *problem, k, workers int) *run {
+func newRun(p *Problem, k, workers int) *run {
 	kp := k * (k + 1) / 2
 	r := &run{p: p, k: k, kp: kp, workers: workers,
 		off:   make([]int, k),
@@ -56,25 +58,15 @@ func newRun(p *problem, k, workers int) *run {
 	for i := 0; i < k; i++ {
 		r.off[i] = i*k - i*(i-1)/2 - i
 	}
+	r.cols = make([]int32, p.n)
+	for j := range r.cols {
+		r.cols[j] = int32(j)
+	}
 	for w := range r.ws {
 		r.ws[w] = workspace{solver: nnls.NewSolver(k), g: make([]float64, k*k), gp: make([]float64, kp),
 			c: make([]float64, k), x: make([]float64, k)}
 	}
 	return r
-}
-
-// addOuter adds a v v^T to the packed upper triangle t, skipping the zeros of v (NNLS
-// solutions have many).
-func (r *run) addOuter(t []float64, v []float64, a float64) {
-	k := r.k
-	for i := 0; i < k; i++ {
-		vi := v[i]
-		if vi == 0 {
-			continue
-		}
-		o := r.off[i] + i
-		axpy(t[o:o+k-i], v[i:k], a*vi)
-	}
 }
 
 // unpack writes the packed upper triangle t as the full symmetric k x k matrix g. A diagonal
@@ -123,11 +115,7 @@ func quad(g, c, x []float64, bb float64) float64 {
 func (r *run) stepH() (float64, error) {
 	p, k, kp := r.p, r.k, r.kp
 	err := parallelFor(len(p.classes), r.workers, func(_, c int) error {
-		s := r.sc[c*kp : (c+1)*kp]
-		clear(s)
-		for _, row := range p.classes[c].rows {
-			r.addOuter(s, r.W[int(row)*k:int(row)*k+k], 1)
-		}
+		gram(r.sc[c*kp:(c+1)*kp], r.W, k, p.classes[c].rows)
 		return nil
 	})
 	if err != nil {
@@ -161,12 +149,9 @@ func (r *run) stepH() (float64, error) {
 		}
 		r.unpack(ws.g, gp, r.gfull)
 		cv := ws.c
-		clear(cv)
 		xm := p.xm
-		for e := xm.colStart[j]; e < xm.colStart[j+1]; e++ {
-			row := int(xm.colRow[e])
-			axpy(cv, r.W[row*k:row*k+k], xm.colVal[e])
-		}
+		lo, hi := xm.colStart[j], xm.colStart[j+1]
+		gather(cv, r.W, k, xm.colRow[lo:hi], xm.colVal[lo:hi])
 		h := r.Ht[j*k : j*k+k]
 		r.fcol[j] = quad(ws.g, cv, h, p.colSq[j])
 		if p.colObserved[j] == 0 {
@@ -192,11 +177,7 @@ func (r *run) stepW() (float64, error) {
 	p, k, kp := r.p, r.k, r.kp
 	nb := len(r.parts) / kp
 	err := parallelFor(nb, r.workers, func(_, b int) error {
-		part := r.parts[b*kp : (b+1)*kp]
-		clear(part)
-		for j := b * hhtBlock; j < min((b+1)*hhtBlock, p.n); j++ {
-			r.addOuter(part, r.Ht[j*k:j*k+k], 1)
-		}
+		gram(r.parts[b*kp:(b+1)*kp], r.Ht, k, r.cols[b*hhtBlock:min((b+1)*hhtBlock, p.n)])
 		return nil
 	})
 	if err != nil {
@@ -210,17 +191,11 @@ func (r *run) stepW() (float64, error) {
 		ws := &r.ws[w]
 		cl := &p.classes[c]
 		gp := ws.gp
+		gram(gp, r.Ht, k, cl.cols)
 		if cl.subtract {
-			copy(gp, r.hht)
-		} else {
-			clear(gp)
-		}
-		sign := 1.0
-		if cl.subtract {
-			sign = -1
-		}
-		for _, j := range cl.cols {
-			r.addOuter(gp, r.Ht[int(j)*k:int(j)*k+k], sign)
+			for i, v := range r.hht {
+				gp[i] = v - gp[i]
+			}
 		}
 		r.unpack(r.gcls[c*k*k:(c+1)*k*k], gp, r.hht)
 		return nil
@@ -239,12 +214,9 @@ func (r *run) stepW() (float64, error) {
 		}
 		g := r.gcls[c*k*k : (c+1)*k*k]
 		cv := ws.c
-		clear(cv)
 		xm := p.xm
-		for e := xm.rowStart[row]; e < xm.rowStart[row+1]; e++ {
-			j := int(xm.rowCol[e])
-			axpy(cv, r.Ht[j*k:j*k+k], xm.rowVal[e])
-		}
+		lo, hi := xm.rowStart[row], xm.rowStart[row+1]
+		gather(cv, r.Ht, k, xm.rowCol[lo:hi], xm.rowVal[lo:hi])
 		if err := ws.solver.SolveGram(g, cv, ws.x); err != nil {
 			return fmt.Errorf("solving row %d of W: %w", row, err)
 		}
@@ -301,24 +273,42 @@ func (r *run) iterate(ctx context.Context, maxIter int, tol float64, onIter func
 	return history, false, nil
 }
 
-// objective returns ||M .* (X - W H)||_F^2 computed cell by cell from the factors.
-func (r *run) objective() float64 {
-	p, k := r.p, r.k
-	_ = parallelFor(p.m, r.workers, func(_, row int) error {
+// objective returns ||M .* (X - W H)||_F^2 computed cell by cell from the factors; h is H as a
+// k x n row-major array. Row r's prediction W_r H is formed as a sum of k rows of H, four at a
+// time.
+func (r *run) objective(h []float64) float64 {
+	p, k, n := r.p, r.k, r.p.n
+	_ = parallelFor(p.m, r.workers, func(w, row int) error {
+		ws := &r.ws[w]
+		if len(ws.pred) != n {
+			ws.pred = make([]float64, n)
+		}
+		pred := ws.pred
+		clear(pred)
 		wr := r.W[row*k : row*k+k]
+		g := 0
+		for ; g+4 <= k; g += 4 {
+			a0, a1, a2, a3 := wr[g], wr[g+1], wr[g+2], wr[g+3]
+			h0, h1, h2, h3 := h[g*n:g*n+n], h[(g+1)*n:(g+1)*n+n], h[(g+2)*n:(g+2)*n+n], h[(g+3)*n:(g+3)*n+n]
+			for j := range pred {
+				pred[j] += a0*h0[j] + a1*h1[j] + a2*h2[j] + a3*h3[j]
+			}
+		}
+		for ; g < k; g++ {
+			a, hg := wr[g], h[g*n:g*n+n]
+			for j := range pred {
+				pred[j] += a * hg[j]
+			}
+		}
 		xm := p.xm
-		e, end := xm.rowStart[row], xm.rowStart[row+1]
+		for e := xm.rowStart[row]; e < xm.rowStart[row+1]; e++ {
+			pred[xm.rowCol[e]] -= xm.rowVal[e]
+		}
 		s := 0.0
 		for j, o := range p.maskRow(row) {
-			if o == 0 {
-				continue
+			if o == 1 {
+				s += pred[j] * pred[j]
 			}
-			d := -dot(wr, r.Ht[j*k:j*k+k])
-			if e < end && int(xm.rowCol[e]) == j {
-				d += xm.rowVal[e]
-				e++
-			}
-			s += d * d
 		}
 		r.frow[row] = s
 		return nil

@@ -128,7 +128,7 @@ func partNorms(x []float64) (pos, neg float64) {
 // RandomizedNNDSVD is NNDSVD built from an approximate truncated SVD found by a seeded
 // randomized range finder with power iterations (Halko, Martinsson & Tropp 2011, SIAM Review 53,
 // algorithms 4.4 and 5.1, from memory; the approach of scikit-learn's randomized_svd): with l =
-// k + 10 and a random n x l matrix Omega, Q = orth(X Omega) refined by q = 4 rounds of
+// k + 10 and a random n x l matrix Omega, Q = orth(X Omega) refined by q = 2 rounds of
 // Q = orth(X orth(X^T Q)), then the exact SVD (gonum mat.SVD) of the small l x n matrix Q^T X
 // gives U = Q U_B, S and V. The cost is O(nnz(X) l q) instead of the exact SVD's O(m n min(m,n)).
 // The same seed gives the same result.
@@ -137,13 +137,20 @@ func RandomizedNNDSVD(X *mat.Dense, k int, seed uint64) (W, H *mat.Dense, err er
 	if k < 1 || k > min(m, n) {
 		return nil, nil, fmt.Errorf("nndsvd: k is %d; expected 1 <= k <= min(m, n) = %d", k, min(m, n))
 	}
-	return randomizedNNDSVD(sparseFromDense(X), k, seed, 1)
+	a := sparseFromDense(X)
+	return randomizedNNDSVD(a, m, n, k, seed, 1)
 }
 
-func randomizedNNDSVD(a *sparse, k int, seed uint64, workers int) (W, H *mat.Dense, err error) {
-	m, n := a.m, a.n
+// linearOp is a matrix known by its products with row-major blocks of l columns: mul sets
+// y = A b (b is n x l, y m x l) and mulT sets z = A^T b (b is m x l, z n x l).
+type linearOp interface {
+	mul(y, b []float64, l, workers int)
+	mulT(z, b []float64, l, workers int)
+}
+
+func randomizedNNDSVD(a linearOp, m, n, k int, seed uint64, workers int) (W, H *mat.Dense, err error) {
 	l := min(k+10, m, n)
-	const q = 4
+	const q = 2
 	rng := newRand(seed, streamSVD)
 	omega := make([]float64, n*l) // row-major n x l
 	for i := range omega {
@@ -177,19 +184,28 @@ func randomizedNNDSVD(a *sparse, k int, seed uint64, workers int) (W, H *mat.Den
 }
 
 // orthonormalise replaces the l columns of the r x l row-major matrix a by an orthonormal basis
-// of their span, by modified Gram-Schmidt applied twice (enough for full working accuracy; Giraud
-// et al. 2005, Numer. Math. 101, from memory). A column that vanishes is left zero.
+// of their span, by classical Gram-Schmidt applied twice to each column (CGS2: as accurate as
+// modified Gram-Schmidt, and it reads a row by row; Giraud et al. 2005, Numer. Math. 101, from
+// memory). A column that vanishes is left zero.
 func orthonormalise(a []float64, r, l int) {
+	d := make([]float64, l)
 	for c := 0; c < l; c++ {
-		for pass := 0; pass < 2; pass++ {
-			for b := 0; b < c; b++ {
-				d := 0.0
-				for i := 0; i < r; i++ {
-					d += a[i*l+b] * a[i*l+c]
+		for pass := 0; pass < 2 && c > 0; pass++ {
+			clear(d[:c])
+			for i := 0; i < r; i++ {
+				row := a[i*l : i*l+l]
+				v := row[c]
+				for b := 0; b < c; b++ {
+					d[b] += row[b] * v
 				}
-				for i := 0; i < r; i++ {
-					a[i*l+c] -= d * a[i*l+b]
+			}
+			for i := 0; i < r; i++ {
+				row := a[i*l : i*l+l]
+				s := row[c]
+				for b := 0; b < c; b++ {
+					s -= d[b] * row[b]
 				}
+				row[c] = s
 			}
 		}
 		nrm := 0.0
@@ -230,7 +246,7 @@ func normal(rng *rand.Rand) float64 {
 // randomFactors returns random non-negative m x k and k x n factors (row-major W and row-major
 // H^T) with entries uniform on [0, 2a), a = sqrt(mean/k) and mean the mean observed entry of X,
 // so that W H has about the scale of X (scikit-learn's init='random' uses |N(0, a^2)|).
-func randomFactors(p *problem, k int, rng *rand.Rand) (w, ht []float64) {
+func randomFactors(p *Problem, k int, rng *rand.Rand) (w, ht []float64) {
 	mean := 0.0
 	if p.observed > 0 {
 		s := 0.0
@@ -251,39 +267,121 @@ func randomFactors(p *problem, k int, rng *rand.Rand) (w, ht []float64) {
 	return w, ht
 }
 
-// filledMatrix returns X with its unobserved cells filled by the mean of the observed cells of
-// their row (0 for a row with none), the matrix the NNDSVD of masked data is taken from: a lacuna
-// is given the value the reading has on average among the witnesses that are extant there.
-func filledMatrix(p *problem) *sparse {
+// rowFill returns the value the NNDSVD start gives the unobserved cells of each row: the mean
+// of the row's observed cells (0 for a row with none). A lacuna is given the value the reading
+// has on average among the witnesses extant there.
+func rowFill(p *Problem) []float64 {
+	fill := make([]float64, p.m)
 	xm := p.xm
-	rowStart := make([]int, p.m+1)
-	rowCol := make([]int32, 0, len(xm.rowCol)+p.m*p.n-p.observed)
-	rowVal := make([]float64, 0, cap(rowCol))
-	for r := 0; r < p.m; r++ {
-		fill := 0.0
+	for r := range fill {
 		if obs := p.classes[p.rowClass[r]].observed; obs > 0 {
 			s := 0.0
 			for _, v := range xm.rowVal[xm.rowStart[r]:xm.rowStart[r+1]] {
 				s += v
 			}
-			fill = s / float64(obs)
+			fill[r] = s / float64(obs)
 		}
-		e, end := xm.rowStart[r], xm.rowStart[r+1]
+	}
+	return fill
+}
+
+// filledDense returns the data with unobserved cells filled (rowFill) as a dense matrix.
+func filledDense(p *Problem) *mat.Dense {
+	fill := rowFill(p)
+	d := mat.NewDense(p.m, p.n, nil)
+	xm := p.xm
+	for r := 0; r < p.m; r++ {
 		for j, o := range p.maskRow(r) {
-			v := fill
-			if o == 1 {
-				v = 0
-				if e < end && int(xm.rowCol[e]) == j {
-					v = xm.rowVal[e]
-					e++
+			if o == 0 {
+				d.Set(r, j, fill[r])
+			}
+		}
+		for e := xm.rowStart[r]; e < xm.rowStart[r+1]; e++ {
+			d.Set(r, int(xm.rowCol[e]), xm.rowVal[e])
+		}
+	}
+	return d
+}
+
+// filledOp is the filled data A = M .* X + F as a linear operator, with F_rj = fill_r where
+// M_rj = 0, without forming A: F's products go through the mask classes, whose rows share their
+// unobserved columns U_c. (F b)_r = fill_r sum_{j in U_c(r)} b_j, and (F^T q)_j = sum over the
+// classes c lacking j of t_c, t_c = sum_{r in c} fill_r q_r; each sum is taken over the shorter
+// list (the class's or column's own, or the complement as total minus the rest).
+type filledOp struct {
+	p    *Problem
+	fill []float64
+}
+
+func (f *filledOp) mul(y, b []float64, l, workers int) {
+	p := f.p
+	p.xm.mul(y, b, l, workers)
+	total := make([]float64, l)
+	for j := 0; j < p.n; j++ {
+		for i, v := range b[j*l : j*l+l] {
+			total[i] += v
+		}
+	}
+	u := make([]float64, len(p.classes)*l)
+	_ = parallelFor(len(p.classes), workers, func(_, c int) error {
+		cl := &p.classes[c]
+		uc := u[c*l : c*l+l]
+		for _, j := range cl.cols {
+			for i, v := range b[int(j)*l : int(j)*l+l] {
+				uc[i] += v
+			}
+		}
+		if !cl.subtract {
+			for i := range uc {
+				uc[i] = total[i] - uc[i]
+			}
+		}
+		return nil
+	})
+	for r := 0; r < p.m; r++ {
+		if fr := f.fill[r]; fr != 0 {
+			c := int(p.rowClass[r])
+			yr := y[r*l : r*l+l]
+			for i, v := range u[c*l : c*l+l] {
+				yr[i] += fr * v
+			}
+		}
+	}
+}
+
+func (f *filledOp) mulT(z, b []float64, l, workers int) {
+	p := f.p
+	p.xm.mulT(z, b, l, workers)
+	t := make([]float64, len(p.classes)*l)
+	total := make([]float64, l)
+	for c := range p.classes {
+		tc := t[c*l : c*l+l]
+		for _, r := range p.classes[c].rows {
+			if fr := f.fill[r]; fr != 0 {
+				for i, v := range b[int(r)*l : int(r)*l+l] {
+					tc[i] += fr * v
 				}
 			}
-			if v != 0 {
-				rowCol = append(rowCol, int32(j))
-				rowVal = append(rowVal, v)
+		}
+		for i, v := range tc {
+			total[i] += v
+		}
+	}
+	_ = parallelFor(p.n, workers, func(_, j int) error {
+		zj := z[j*l : j*l+l]
+		list := p.colList[p.colListStart[j]:p.colListStart[j+1]]
+		sign := 1.0
+		if !p.colSubtract[j] { // list holds the observed classes: add the total, less them
+			sign = -1
+			for i, v := range total {
+				zj[i] += v
 			}
 		}
-		rowStart[r+1] = len(rowCol)
-	}
-	return newSparseRows(p.m, p.n, rowStart, rowCol, rowVal)
+		for _, c := range list {
+			for i, v := range t[int(c)*l : int(c)*l+l] {
+				zj[i] += sign * v
+			}
+		}
+		return nil
+	})
 }

@@ -19,7 +19,7 @@
 // problems are solved in Gram form by the Lawson-Hanson active-set method (package nnls). Since
 // every block is solved exactly, f never increases from one iteration to the next.
 //
-// The masked Gram matrices are formed cheaply (see problem): rows with the same mask (all readings
+// The masked Gram matrices are formed cheaply (see Problem): rows with the same mask (all readings
 // of a variation unit) are handled together, and each G_j is the full Gram matrix W^T W less the
 // few terms of the rows column j lacks (or the sum of those it has, if fewer).
 //
@@ -162,10 +162,16 @@ func Factorize(X, M *mat.Dense, opt Options) (*Result, error) {
 
 // FactorizeContext is Factorize with a context, checked between iterations.
 func FactorizeContext(ctx context.Context, X, M *mat.Dense, opt Options) (*Result, error) {
-	p, err := newProblem(X, M)
+	p, err := NewProblem(X, M)
 	if err != nil {
 		return nil, fmt.Errorf("nmf: %w", err)
 	}
+	return p.Factorize(ctx, opt)
+}
+
+// Factorize computes the masked NMF of the problem's data with the given options. A Problem
+// is read-only here: several factorisations of one Problem may run at once.
+func (p *Problem) Factorize(ctx context.Context, opt Options) (*Result, error) {
 	opt = opt.withDefaults()
 	if err := opt.validate(p.m, p.n); err != nil {
 		return nil, fmt.Errorf("nmf: %w", err)
@@ -203,18 +209,17 @@ func restartSeed(seed uint64, rs int) uint64 {
 }
 
 // factorizeOnce runs one restart from the given initialisation.
-func factorizeOnce(ctx context.Context, p *problem, opt Options, init string, seed uint64, restart int) (*Result, error) {
+func factorizeOnce(ctx context.Context, p *Problem, opt Options, init string, seed uint64, restart int) (*Result, error) {
 	k := opt.K
 	r := newRun(p, k, opt.Workers)
 	switch init {
 	case InitNNDSVD:
-		filled := filledMatrix(p)
 		var W, H *mat.Dense
 		var err error
 		if min(p.m, p.n) <= exactSVDLimit {
-			W, H, err = NNDSVD(filled.dense(), k)
+			W, H, err = NNDSVD(filledDense(p), k)
 		} else {
-			W, H, err = randomizedNNDSVD(filled, k, opt.Seed, opt.Workers)
+			W, H, err = randomizedNNDSVD(&filledOp{p: p, fill: rowFill(p)}, p.m, p.n, k, opt.Seed, opt.Workers)
 		}
 		if err != nil {
 			return nil, err
@@ -238,7 +243,7 @@ func factorizeOnce(ctx context.Context, p *problem, opt Options, init string, se
 	}
 	res := &Result{History: history, Iterations: len(history) - 1, Converged: converged, Restart: restart}
 	res.W, res.H = r.normalised()
-	res.Objective = r.objective()
+	res.Objective = r.objective(res.H.RawMatrix().Data)
 	return res, nil
 }
 

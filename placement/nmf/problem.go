@@ -5,11 +5,12 @@ import (
 	"fmt"
 	"hash/maphash"
 	"math"
+	"runtime"
 
 	"gonum.org/v1/gonum/mat"
 )
 
-// problem is the masked data in the forms the ANLS steps need.
+// Problem is the masked data in the forms the ANLS steps need.
 //
 // Only observed cells count, so the data is kept as XM = M .* X in sparse form, by columns for
 // the H step (c_j = W^T xm_j) and by rows for the W step (c_r = H xm_r^T); observed zeros need no
@@ -21,7 +22,7 @@ import (
 // shares its row Gram matrix and its contribution S_c = sum_{r in c} W_r W_r^T to every column.
 // Each column then combines classes, and each class combines columns, whichever way is shorter:
 // subtracting the few unobserved ones from the full Gram matrix, or adding up the observed ones.
-type problem struct {
+type Problem struct {
 	m, n     int
 	xm       *sparse   // M .* X
 	colSq    []float64 // ||xm_j||^2
@@ -49,9 +50,10 @@ type maskClass struct {
 	observed int // observed columns
 }
 
-// newProblem checks X and M and builds the problem. M may be nil (every cell observed). Cells
-// with M = 0 are ignored whatever X holds there.
-func newProblem(X, M *mat.Dense) (*problem, error) {
+// NewProblem checks the m x n data X and its 0/1 mask M (nil: every cell observed) and lays
+// them out for factorisation, once for any number of runs. Observed cells must be finite and
+// non-negative; cells with M = 0 are ignored whatever X holds there (NaN included).
+func NewProblem(X, M *mat.Dense) (*Problem, error) {
 	if X == nil || X.IsEmpty() {
 		return nil, fmt.Errorf("X is empty")
 	}
@@ -65,12 +67,15 @@ func newProblem(X, M *mat.Dense) (*problem, error) {
 		raw := M.RawMatrix()
 		mr = blasRaw{data: raw.Data, stride: raw.Stride}
 	}
-	p := &problem{m: m, n: n, colSq: make([]float64, n), rowSq: make([]float64, m), mask: make([]byte, m*n)}
+	p := &Problem{m: m, n: n, colSq: make([]float64, n), rowSq: make([]float64, m), mask: make([]byte, m*n)}
+	workers := runtime.GOMAXPROCS(0)
+	// Pass 1, row by row: check the cells, fill the mask, count the entries of each row.
 	rowStart := make([]int, m+1)
-	var rowCol []int32
-	var rowVal []float64
-	for r := 0; r < m; r++ {
+	obsCount := make([]int, m)
+	err := parallelFor(m, workers, func(_, r int) error {
 		xrow := xr.Data[r*xr.Stride : r*xr.Stride+n]
+		mask := p.mask[r*n : r*n+n]
+		nnz, obs, sq := 0, 0, 0.0
 		for j, v := range xrow {
 			if mr.data != nil {
 				switch o := mr.data[r*mr.stride+j]; o {
@@ -78,28 +83,50 @@ func newProblem(X, M *mat.Dense) (*problem, error) {
 					continue
 				case 1:
 				default:
-					return nil, fmt.Errorf("mask M[%d][%d] is %g; expected 0 (unobserved) or 1 (observed)", r, j, o)
+					return fmt.Errorf("mask M[%d][%d] is %g; expected 0 (unobserved) or 1 (observed)", r, j, o)
 				}
 			}
-			p.mask[r*n+j] = 1
-			p.observed++
+			mask[j] = 1
+			obs++
 			if !(v >= 0) || math.IsInf(v, 0) {
-				return nil, fmt.Errorf("X[%d][%d] is %g; observed cells must be finite and non-negative", r, j, v)
+				return fmt.Errorf("X[%d][%d] is %g; observed cells must be finite and non-negative", r, j, v)
 			}
-			if v == 0 {
-				continue
+			if v != 0 {
+				nnz++
+				sq += v * v
 			}
-			rowCol = append(rowCol, int32(j))
-			rowVal = append(rowVal, v)
-			p.rowSq[r] += v * v
+		}
+		rowStart[r+1], obsCount[r], p.rowSq[r] = nnz, obs, sq
+		return nil
+	})
+	if err != nil {
+		return nil, err
+	}
+	for r := 0; r < m; r++ {
+		rowStart[r+1] += rowStart[r]
+		p.observed += obsCount[r]
+	}
+	// Pass 2: the entries.
+	rowCol := make([]int32, rowStart[m])
+	rowVal := make([]float64, rowStart[m])
+	_ = parallelFor(m, workers, func(_, r int) error {
+		e := rowStart[r]
+		mask := p.mask[r*n : r*n+n]
+		for j, v := range xr.Data[r*xr.Stride : r*xr.Stride+n] {
+			if mask[j] == 1 && v != 0 {
+				rowCol[e], rowVal[e] = int32(j), v
+				e++
+			}
+		}
+		return nil
+	})
+	p.xm = newSparseRows(m, n, rowStart, rowCol, rowVal)
+	for j := 0; j < n; j++ {
+		for _, v := range p.xm.colVal[p.xm.colStart[j]:p.xm.colStart[j+1]] {
 			p.colSq[j] += v * v
 		}
-		rowStart[r+1] = len(rowCol)
+		p.total += p.colSq[j]
 	}
-	for _, v := range p.colSq {
-		p.total += v
-	}
-	p.xm = newSparseRows(m, n, rowStart, rowCol, rowVal)
 	p.buildClasses()
 	return p, nil
 }
@@ -110,11 +137,17 @@ type blasRaw struct {
 	stride int
 }
 
-func (p *problem) maskRow(r int) []byte { return p.mask[r*p.n : (r+1)*p.n] }
+// NormSq returns ||M .* X||_F^2, the objective of the zero factorisation (k = 0).
+func (p *Problem) NormSq() float64 { return p.total }
+
+// Dims returns the size m x n of the data.
+func (p *Problem) Dims() (m, n int) { return p.m, p.n }
+
+func (p *Problem) maskRow(r int) []byte { return p.mask[r*p.n : (r+1)*p.n] }
 
 // buildClasses groups rows by identical mask rows and lists, for each column and each class,
 // the shorter way to form its Gram matrix.
-func (p *problem) buildClasses() {
+func (p *Problem) buildClasses() {
 	m, n := p.m, p.n
 	p.rowClass = make([]int32, m)
 	seed := maphash.MakeSeed()

@@ -59,12 +59,8 @@ func sparseFromDense(X *mat.Dense) *sparse {
 // mul sets y = A b for the n x l row-major b (y is m x l row-major).
 func (a *sparse) mul(y, b []float64, l, workers int) {
 	_ = parallelFor(a.m, workers, func(_, r int) error {
-		yr := y[r*l : r*l+l]
-		clear(yr)
-		for e := a.rowStart[r]; e < a.rowStart[r+1]; e++ {
-			j := int(a.rowCol[e])
-			axpy(yr, b[j*l:j*l+l], a.rowVal[e])
-		}
+		lo, hi := a.rowStart[r], a.rowStart[r+1]
+		gather(y[r*l:r*l+l], b, l, a.rowCol[lo:hi], a.rowVal[lo:hi])
 		return nil
 	})
 }
@@ -72,33 +68,10 @@ func (a *sparse) mul(y, b []float64, l, workers int) {
 // mulT sets z = A^T b for the m x l row-major b (z is n x l row-major).
 func (a *sparse) mulT(z, b []float64, l, workers int) {
 	_ = parallelFor(a.n, workers, func(_, j int) error {
-		zj := z[j*l : j*l+l]
-		clear(zj)
-		for e := a.colStart[j]; e < a.colStart[j+1]; e++ {
-			r := int(a.colRow[e])
-			axpy(zj, b[r*l:r*l+l], a.colVal[e])
-		}
+		lo, hi := a.colStart[j], a.colStart[j+1]
+		gather(z[j*l:j*l+l], b, l, a.colRow[lo:hi], a.colVal[lo:hi])
 		return nil
 	})
-}
-
-// dense returns the matrix as a gonum Dense.
-func (a *sparse) dense() *mat.Dense {
-	d := mat.NewDense(a.m, a.n, nil)
-	for r := 0; r < a.m; r++ {
-		for e := a.rowStart[r]; e < a.rowStart[r+1]; e++ {
-			d.Set(r, int(a.rowCol[e]), a.rowVal[e])
-		}
-	}
-	return d
-}
-
-// axpy sets dst += a x (len(x) >= len(dst)). It is small enough to be inlined.
-func axpy(dst, x []float64, a float64) {
-	x = x[:len(dst)]
-	for i := range dst {
-		dst[i] += a * x[i]
-	}
 }
 
 // dot returns x . y (len(y) >= len(x)).
