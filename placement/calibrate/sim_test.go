@@ -1,6 +1,7 @@
 package calibrate
 
 import (
+	"fmt"
 	"math"
 	"math/rand/v2"
 	"testing"
@@ -33,17 +34,27 @@ type tradSpec struct {
 	heldPure         int
 	// famDiv and grpDiv, if set, replace the simulator's divergences (lower is harder).
 	famDiv, grpDiv float64
+	// sections, if set, replaces the simulator's number of sections; holdMixed holds every
+	// mixed and block-mixed witness out of training too.
+	sections  int
+	holdMixed bool
 }
 
 var specs = []tradSpec{
-	{"sub-groups", 22, 70, 200, nil, 0.05, 0.05, 10, 0, 0},
-	{"four-families", 23, 80, 200, []simulate.Family{{Groups: 2, Share: 0.4}, {Groups: 1, Share: 0.2}, {Groups: 1, Share: 0.2}, {Groups: 1, Share: 0.2}}, 0.05, 0.05, 10, 0, 0},
-	{"close-groups", 24, 80, 300, nil, 0.05, 0.05, 12, 0.08, 0.04},
+	{"sub-groups", 22, 70, 200, nil, 0.05, 0.05, 10, 0, 0, 0, false},
+	{"four-families", 23, 80, 200, []simulate.Family{{Groups: 2, Share: 0.4}, {Groups: 1, Share: 0.2}, {Groups: 1, Share: 0.2}, {Groups: 1, Share: 0.2}}, 0.05, 0.05, 10, 0, 0, 0, false},
+	{"close-groups", 24, 80, 300, nil, 0.05, 0.05, 12, 0.08, 0.04, 0, false},
 	// Many close sub-groups: a random unit rarely tells two sister groups apart.
-	{"fine-groups", 25, 160, 250, []simulate.Family{{Groups: 3, Share: 0.25}, {Groups: 3, Share: 0.25}, {Groups: 3, Share: 0.25}, {Groups: 3, Share: 0.25}}, 0.05, 0.05, 12, 0.04, 0.02},
+	{"fine-groups", 25, 144, 150, []simulate.Family{{Groups: 3, Share: 0.25}, {Groups: 3, Share: 0.25}, {Groups: 3, Share: 0.25}, {Groups: 3, Share: 0.25}}, 0.05, 0.05, 12, 0.04, 0.02, 0, false},
+	// Many mixed and block-mixed witnesses, all held out with 40 pure ones.
+	{"mixtures", 26, 200, 240, nil, 0.15, 0.15, 40, 0, 0, 6, true},
 }
 
 var tradCache = map[string]*tradition{}
+
+// testLevels are the coverage levels of the calibration fragments in these tests: fewer than
+// DefaultLevels, to keep the tests fast, and none of them a level the held-out check uses.
+var testLevels = []float64{0.01, 0.03, 0.07, 0.15, 0.3, 0.6}
 
 // build simulates, splits and trains (cached across tests of one run).
 func build(t testing.TB, s tradSpec) *tradition {
@@ -57,6 +68,9 @@ func build(t testing.TB, s tradSpec) *tradition {
 		cfg.Families = s.families
 	}
 	cfg.Mixed, cfg.BlockMixed, cfg.Fragmentary = s.mixed, s.block, 0
+	if s.sections > 0 {
+		cfg.Sections = s.sections
+	}
 	if s.famDiv > 0 {
 		cfg.FamilyDivergence, cfg.GroupDivergence = s.famDiv, s.grpDiv
 	}
@@ -64,10 +78,15 @@ func build(t testing.TB, s tradSpec) *tradition {
 	if err != nil {
 		t.Fatal(err)
 	}
-	// Hold out the first heldPure pure witnesses of each... of the tradition, in collation order.
+	// Hold out the first heldPure pure witnesses, in collation order (and the mixed ones if asked).
 	var held []string
+	pure := 0
 	for _, w := range tr.Truth.Witnesses {
-		if w.Kind == simulate.KindPure && len(held) < s.heldPure {
+		switch {
+		case w.Kind == simulate.KindPure && pure < s.heldPure:
+			held = append(held, w.Siglum)
+			pure++
+		case s.holdMixed && (w.Kind == simulate.KindMixed || w.Kind == simulate.KindBlockMixed):
 			held = append(held, w.Siglum)
 		}
 	}
@@ -76,7 +95,7 @@ func build(t testing.TB, s tradSpec) *tradition {
 		t.Fatal(err)
 	}
 	k := len(tr.Truth.Groups)
-	m, rep, err := Train(kept.Collation, model.TrainOptions{Groups: k, Seed: 5}, Options{Seed: 9})
+	m, rep, err := Train(kept.Collation, model.TrainOptions{Groups: k, Seed: 5}, Options{Seed: 9, Levels: testLevels, Witnesses: 45})
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -301,5 +320,117 @@ func TestSuggestionsBeatRandomChecking(t *testing.T) {
 		if ms > 0.5*mr {
 			t.Errorf("suggested checking needs %.1f units (median), more than half of random checking's %.1f", ms, mr)
 		}
+	}
+}
+
+// Ground truth (the simulator): mixed witnesses held out of training; the mean absolute error of
+// the secondary group's share is at most 0.1, and pure held-out witnesses are flagged mixed at
+// most 5% of the time.
+func TestMixtureShares(t *testing.T) {
+	tc := build(t, specs[4])
+	c := tc.held.Collation
+	var errSum float64
+	var nMixed, flaggedMixed, nPure, flaggedPure int
+	for w := 0; w < c.NumWitnesses(); w++ {
+		wt := tc.held.Truth.Witnesses[w]
+		if wt.Kind != simulate.KindMixed && wt.Kind != simulate.KindPure {
+			continue
+		}
+		p, err := tc.model.Place(c.Witness(w), readings(c, c.Row(w)), nil)
+		if err != nil {
+			t.Fatal(err)
+		}
+		if wt.Kind == simulate.KindPure {
+			nPure++
+			if p.Mixed {
+				flaggedPure++
+			}
+			continue
+		}
+		second := -1
+		for g, s := range wt.Shares {
+			if g != wt.Group && s > 0 {
+				second = g
+			}
+		}
+		est := 0.0
+		for _, gs := range p.Groups {
+			if tc.toTruth[gs.Group] == second {
+				est += gs.Share
+			}
+		}
+		errSum += math.Abs(est - wt.Shares[second])
+		nMixed++
+		if p.Mixed {
+			flaggedMixed++
+		}
+	}
+	if nMixed < 10 || nPure < 20 {
+		t.Fatalf("only %d mixed and %d pure held-out witnesses", nMixed, nPure)
+	}
+	mae := errSum / float64(nMixed)
+	t.Logf("%d mixed witnesses: secondary share MAE %.3f, %d flagged mixed; %d pure: %d flagged", nMixed, mae, flaggedMixed, nPure, flaggedPure)
+	if mae > 0.1 {
+		t.Errorf("secondary share MAE %.3f > 0.1", mae)
+	}
+	if float64(flaggedPure) > 0.05*float64(nPure) {
+		t.Errorf("%d of %d pure witnesses flagged mixed (> 5%%)", flaggedPure, nPure)
+	}
+}
+
+// Ground truth (the simulator): block-mixed witnesses held out of training are flagged in at
+// least 80% of cases with the change placed within one section of the true one; pure held-out
+// witnesses are flagged at most 5% of the time.
+func TestBlockMixture(t *testing.T) {
+	tc := build(t, specs[4])
+	c := tc.held.Collation
+	sectionIndex := map[string]int{}
+	for i, s := range tc.held.Truth.Sections {
+		sectionIndex[s] = i
+	}
+	var nBlock, found, nPure, flaggedPure int
+	for w := 0; w < c.NumWitnesses(); w++ {
+		wt := tc.held.Truth.Witnesses[w]
+		if wt.Kind != simulate.KindBlockMixed && wt.Kind != simulate.KindPure {
+			continue
+		}
+		sp, err := tc.model.PlaceBySection(c.Witness(w), readings(c, c.Row(w)), nil)
+		if err != nil {
+			t.Fatal(err)
+		}
+		if wt.Kind == simulate.KindPure {
+			nPure++
+			if sp.BlockMixture {
+				flaggedPure++
+				t.Logf("pure %s flagged: %+v", wt.Siglum, sp.Changes)
+			}
+			continue
+		}
+		nBlock++
+		ok := false
+		for _, ch := range sp.Changes {
+			if d := sectionIndex[ch.At] - wt.Switch.SectionIndex; d >= -1 && d <= 1 {
+				ok = true
+			}
+		}
+		if ok {
+			found++
+		} else {
+			var secs []string
+			for _, s := range sp.Sections {
+				secs = append(secs, fmt.Sprintf("%s:%s/%.2f", s.Section, s.BestGroup, s.Confidence))
+			}
+			t.Logf("block-mixed %s (switch at %s, %s -> %s) missed: %v", wt.Siglum, wt.Switch.Section, tc.ofTruth[wt.Group], tc.ofTruth[wt.Switch.To], secs)
+		}
+	}
+	if nBlock < 10 || nPure < 20 {
+		t.Fatalf("only %d block-mixed and %d pure held-out witnesses", nBlock, nPure)
+	}
+	t.Logf("%d block-mixed: %d flagged with the change within one section; %d pure: %d flagged", nBlock, found, nPure, flaggedPure)
+	if float64(found) < 0.8*float64(nBlock) {
+		t.Errorf("%d of %d block-mixed witnesses found (< 80%%)", found, nBlock)
+	}
+	if float64(flaggedPure) > 0.05*float64(nPure) {
+		t.Errorf("%d of %d pure witnesses flagged (> 5%%)", flaggedPure, nPure)
 	}
 }

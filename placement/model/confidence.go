@@ -33,6 +33,10 @@ type Features struct {
 	// reading probabilities (see ReadingProbabilities): sum over used units of
 	// log P(reading | best) - log P(reading | second), clipped to [-LogOddsClip, LogOddsClip].
 	LogOdds float64
+	// PosteriorLogOdds is log(q_best / (1 - q_best)) for the best group under the groups'
+	// reading probabilities and sizes (the distribution q that Suggest works with), clipped to
+	// [-LogOddsClip, LogOddsClip].
+	PosteriorLogOdds float64
 }
 
 // Resamples is the number of bootstrap resamples behind Features.Stability.
@@ -51,7 +55,7 @@ const MethodLogisticIsotonic = "logistic-isotonic"
 // FeatureNames are the features a calibration uses by default, in coefficient order.
 var FeatureNames = []string{
 	"informative_coverage", "sqrt_informative_coverage", "margin", "stability",
-	"relative_residual", "log1p_used_units", "log_odds",
+	"relative_residual", "log1p_used_units", "log_odds", "posterior_log_odds",
 }
 
 // Values returns the named features, transformed as their names say.
@@ -73,6 +77,8 @@ func (f Features) Values(names []string) ([]float64, error) {
 			out[i] = math.Log1p(float64(f.UsedUnits))
 		case "log_odds":
 			out[i] = f.LogOdds
+		case "posterior_log_odds":
+			out[i] = f.PosteriorLogOdds
 		default:
 			return nil, fmt.Errorf("unknown placement feature %q", n)
 		}
@@ -189,7 +195,21 @@ func (m *Model) assess(p *Placement, obs []placement.Observation, readings []Rea
 		g.logLik(ll, o.Unit, o.Row, m)
 	}
 	if k > 1 && p.BestGroup != "" {
-		f.LogOdds = math.Max(-LogOddsClip, math.Min(LogOddsClip, ll[best]-ll[second]))
+		f.LogOdds = clipOdds(ll[best] - ll[second])
+		// log q_best - log(sum of the others), by log-sum-exp.
+		mx := math.Inf(-1)
+		for j := range ll {
+			if j != best {
+				mx = math.Max(mx, ll[j]+g.logPrior[j])
+			}
+		}
+		rest := 0.0
+		for j := range ll {
+			if j != best {
+				rest += math.Exp(ll[j] + g.logPrior[j] - mx)
+			}
+		}
+		f.PosteriorLogOdds = clipOdds(ll[best] + g.logPrior[best] - mx - math.Log(rest))
 	}
 	p.Features = f
 	p.Confidence, p.Calibrated = g.confidenceOf(p)
@@ -199,6 +219,8 @@ func (m *Model) assess(p *Placement, obs []placement.Observation, readings []Rea
 	}
 	p.Nearest = m.Nearest(readings, NearestWitnesses)
 }
+
+func clipOdds(x float64) float64 { return math.Max(-LogOddsClip, math.Min(LogOddsClip, x)) }
 
 // topTwo returns the indexes of the largest and second largest entries (ties to the lower
 // index), as the sort of Placement.Groups orders them.
