@@ -216,12 +216,10 @@ func checkAfterCrash(t *testing.T, round int, path string, committed map[int]str
 	listed := map[int]bool{}
 	for _, vi := range mi.Versions {
 		listed[vi.Version] = true
-		b, info, err := s.Bundle(vi.Ref().String())
+		// Verify has decoded every version in full; Bundle is the ordinary read path.
+		_, info, err := s.Bundle(vi.Ref().String())
 		if err != nil {
 			t.Fatalf("round %d: listed version %s does not read back: %v", round, vi.Ref(), err)
-		}
-		if _, err := model.Decode(b); err != nil {
-			t.Fatalf("round %d: %s is partial: %v", round, vi.Ref(), err)
 		}
 		if want, ok := committed[vi.Version]; ok && info.SHA256 != want {
 			t.Fatalf("round %d: %s has checksum %s; the writer committed %s", round, vi.Ref(), info.SHA256, want)
