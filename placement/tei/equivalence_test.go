@@ -91,7 +91,7 @@ func TestCSVAndTEIGiveTheSameModel(t *testing.T) {
 				t.Fatalf("the TEI path reads another collation: %v", err)
 			}
 
-			opt := model.TrainOptions{Groups: cfg.NumGroups(), Seed: 7, Restarts: 2}
+			opt := model.TrainOptions{Groups: cfg.NumGroups(), Seed: 7, Restarts: 1}
 			a, _, err := model.Train(fromCSV, opt)
 			if err != nil {
 				t.Fatal(err)

@@ -33,10 +33,10 @@ func defaultCollationOptions() *collationOptions {
 func addCollationFlags(fs *flag.FlagSet) *collationOptions {
 	o := defaultCollationOptions()
 	fs.Var((*mergeTypesFlag)(o), "merge-types",
-		"TEI reading @type values merged into their parent reading, comma-separated; orthographic and nonsense readings are merged by default, "+
+		"TEI reading @type values merged into their parent reading, as comma-separated `TYPES`; orthographic and nonsense readings are merged by default, "+
 			"since they are usually not let split groups; \"\" keeps every type a reading of its own")
 	fs.StringVar(&o.SiglumAttr, "siglum-attr", "",
-		"TEI <witness> attribute that gives the siglum when present, such as n (default: the xml:id; strayleaf's own TEI keeps sigla that are no XML names in n)")
+		"TEI <witness> `ATTRIBUTE` that gives the siglum when present, such as n (default: the xml:id; strayleaf's own TEI keeps sigla that are no XML names in n)")
 	return o
 }
 
