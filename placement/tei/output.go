@@ -117,7 +117,8 @@ type Member struct {
 // A witness that could not be placed gets a <note type="error"> instead; one with no best
 // group gets no best-group note and no <certainty>. Shares and degrees are written with four
 // decimals. A share or confidence outside [0, 1] (or NaN), or a string XML cannot carry, is
-// an error.
+// an error. The elements and attributes used, and the TEI P5 rules they follow (from memory),
+// are listed at the top of output.go.
 func WritePlacements(w io.Writer, modelName string, ps []PlacedWitness) error {
 	if err := checkOutChars("model name", modelName); err != nil {
 		return err
