@@ -1,9 +1,12 @@
 package calibrate
 
 import (
+	"bytes"
 	"fmt"
 	"math"
 	"math/rand/v2"
+	"os"
+	"strings"
 	"testing"
 
 	"strayleaf/placement/collation"
@@ -432,5 +435,23 @@ func TestBlockMixture(t *testing.T) {
 	}
 	if float64(flaggedPure) > 0.05*float64(nPure) {
 		t.Errorf("%d of %d pure witnesses flagged (> 5%%)", flaggedPure, nPure)
+	}
+}
+
+// The training summary's reliability diagram is an SVG document with the diagram's title.
+func TestReliabilityPlot(t *testing.T) {
+	tc := build(t, specs[0])
+	var buf bytes.Buffer
+	if err := tc.report.Plot(&buf); err != nil {
+		t.Fatal(err)
+	}
+	out := buf.String()
+	if !strings.HasPrefix(strings.TrimSpace(out), "<?xml") || !strings.Contains(out, "<svg") || !strings.Contains(out, "Reliability of the confidence") {
+		t.Errorf("not an SVG reliability diagram: %.200s", out)
+	}
+	if os.Getenv("STRAYLEAF_WRITE_PLOT") != "" {
+		if err := os.WriteFile(os.Getenv("STRAYLEAF_WRITE_PLOT"), buf.Bytes(), 0o644); err != nil {
+			t.Fatal(err)
+		}
 	}
 }

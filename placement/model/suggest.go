@@ -1,9 +1,11 @@
 package model
 
 import (
+	"cmp"
 	"fmt"
 	"math"
 	"math/rand/v2"
+	"slices"
 	"sort"
 )
 
@@ -177,8 +179,7 @@ func (m *Model) Suggest(witness string, readings []Reading, opt SuggestOptions) 
 				list = append(list, ranked{u, g.gain(m, u, q)})
 			}
 		}
-		rest := list[start:]
-		sort.SliceStable(rest, func(a, b int) bool { return rest[a].gain > rest[b].gain })
+		slices.SortStableFunc(list[start:], func(a, b ranked) int { return cmp.Compare(b.gain, a.gain) })
 	}
 	if !out.Probe && len(list) > 1 {
 		list = g.batch(m, list, q, opt.Top, readings)
@@ -335,8 +336,8 @@ type ranked struct {
 
 // Batch scenarios and pool (see batch).
 const (
-	batchScenarios = 32
-	batchPool      = 3
+	batchScenarios = 16
+	batchPool      = 2
 )
 
 // batch orders the units to check together. The first is the unit of largest gain. Each next

@@ -1,0 +1,78 @@
+package model
+
+import (
+	"math/rand/v2"
+	"testing"
+
+	"strayleaf/placement/collation"
+	"strayleaf/placement/simulate"
+)
+
+// benchModel trains a model of the size the speed goal names: 750 units of 4 readings (about
+// 3,000 kept readings), k = 12, from 300 simulated witnesses.
+func benchModel(b *testing.B) (*Model, *simulate.Tradition) {
+	b.Helper()
+	cfg := simulate.DefaultConfig()
+	cfg.Seed, cfg.Witnesses, cfg.Units, cfg.Sections = 31, 300, 750, 6
+	cfg.Families = []simulate.Family{{Groups: 3, Share: 0.3}, {Groups: 3, Share: 0.3}, {Groups: 2, Share: 0.2}, {Groups: 2, Share: 0.1}, {Groups: 1, Share: 0.05}, {Groups: 1, Share: 0.05}}
+	cfg.Fragmentary = 0
+	tr, err := simulate.Simulate(cfg)
+	if err != nil {
+		b.Fatal(err)
+	}
+	pm, _, err := Train(tr.Collation, TrainOptions{Groups: 12, Seed: 1})
+	if err != nil {
+		b.Fatal(err)
+	}
+	m, err := FromProto(pm)
+	if err != nil {
+		b.Fatal(err)
+	}
+	return m, tr
+}
+
+// BenchmarkSuggest: Suggest (top 10) for a 2%-coverage witness against a 3,000-reading, k = 12
+// model. Goal: under 5 ms.
+func BenchmarkSuggest(b *testing.B) {
+	m, tr := benchModel(b)
+	c := tr.Collation
+	rng := rand.New(rand.NewPCG(1, 2))
+	frag := simulate.CutScattered(c.Row(0), 15, rng)
+	var rd []Reading
+	for u, r := range frag {
+		if r != collation.Lacuna {
+			rd = append(rd, Reading{Unit: c.Unit(u).ID, Reading: c.Unit(u).Readings[r]})
+		}
+	}
+	b.ReportMetric(float64(len(m.Proto().Rows)), "rows")
+	m.guide() // derived data is built once per model, not per call
+	b.ResetTimer()
+	for i := 0; i < b.N; i++ {
+		if _, err := m.Suggest("W", rd, SuggestOptions{Top: 10}); err != nil {
+			b.Fatal(err)
+		}
+	}
+}
+
+// BenchmarkPlaceFragment: Place (with confidence features, mixture test and nearest witnesses)
+// for the same 2%-coverage witness.
+func BenchmarkPlaceFragment(b *testing.B) {
+	m, tr := benchModel(b)
+	c := tr.Collation
+	rng := rand.New(rand.NewPCG(1, 2))
+	frag := simulate.CutScattered(c.Row(0), 15, rng)
+	var rd []Reading
+	for u, r := range frag {
+		if r != collation.Lacuna {
+			rd = append(rd, Reading{Unit: c.Unit(u).ID, Reading: c.Unit(u).Readings[r]})
+		}
+	}
+	ws := m.Engine().NewWorkspace()
+	m.guide()
+	b.ResetTimer()
+	for i := 0; i < b.N; i++ {
+		if _, err := m.Place("W", rd, ws); err != nil {
+			b.Fatal(err)
+		}
+	}
+}
