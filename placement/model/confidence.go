@@ -1,9 +1,11 @@
 package model
 
 import (
+	"cmp"
 	"fmt"
 	"math"
 	"math/rand/v2"
+	"slices"
 	"sort"
 	"sync"
 
@@ -245,6 +247,7 @@ type bootScratch struct {
 	packed        []float64
 	g, c, h       []float64
 	counts        []int
+	obs           []placement.Observation
 	solver        *nnls.Solver
 }
 
@@ -291,6 +294,10 @@ func (m *Model) stability(g *guide, obs []placement.Observation, best int) float
 	nb := min(n, BootstrapBlocks)
 	s := getScratch(k)
 	defer putScratch(k, s)
+	// Deal in unit order, so that the order the readings came in does not matter.
+	s.obs = append(s.obs[:0], obs...)
+	slices.SortFunc(s.obs, func(a, b placement.Observation) int { return cmp.Compare(a.Unit, b.Unit) })
+	obs = s.obs
 	if cap(s.blocks) < nb*tri {
 		s.blocks = make([]float64, nb*tri)
 	}
