@@ -2,7 +2,6 @@ package model
 
 import (
 	"math"
-	"sort"
 
 	"strayleaf/placement"
 )
@@ -152,10 +151,11 @@ func (m *Model) Nearest(readings []Reading, n int) []Neighbour {
 		}
 		cells = append(cells, cell{u, r})
 	}
-	out := make([]Neighbour, 0, len(m.pb.TrainingWitnesses))
-	maxCompared := 0
-	for _, tw := range m.pb.TrainingWitnesses {
-		nb := Neighbour{Witness: tw.Witness, BestGroup: tw.BestGroup}
+	type count struct{ agree, compared int32 }
+	counts := make([]count, len(m.pb.TrainingWitnesses))
+	maxCompared := int32(0)
+	for i, tw := range m.pb.TrainingWitnesses {
+		var ct count
 		for _, c := range cells {
 			if c.u >= len(tw.Cells) {
 				continue
@@ -164,26 +164,19 @@ func (m *Model) Nearest(readings []Reading, n int) []Neighbour {
 			if t < 0 {
 				continue
 			}
-			nb.Compared++
+			ct.compared++
 			if t == c.r {
-				nb.Agree++
+				ct.agree++
 			}
 		}
-		if nb.Compared == 0 {
-			continue
-		}
-		nb.Agreement = float64(nb.Agree) / float64(nb.Compared)
-		maxCompared = max(maxCompared, nb.Compared)
-		out = append(out, nb)
+		counts[i] = ct
+		maxCompared = max(maxCompared, ct.compared)
 	}
-	kept := out[:0]
-	for _, nb := range out {
-		if 2*nb.Compared >= maxCompared {
-			kept = append(kept, nb)
-		}
+	if maxCompared == 0 {
+		return nil
 	}
-	sort.Slice(kept, func(i, j int) bool {
-		a, b := kept[i], kept[j]
+	// better reports whether a ranks before b.
+	better := func(a, b Neighbour) bool {
 		if a.Agreement != b.Agreement {
 			return a.Agreement > b.Agreement
 		}
@@ -191,9 +184,29 @@ func (m *Model) Nearest(readings []Reading, n int) []Neighbour {
 			return a.Compared > b.Compared
 		}
 		return a.Witness < b.Witness
-	})
-	if len(kept) > n {
-		kept = kept[:n]
 	}
-	return append([]Neighbour(nil), kept...)
+	out := make([]Neighbour, 0, n+1)
+	for i, ct := range counts {
+		if ct.compared == 0 || 2*ct.compared < maxCompared {
+			continue
+		}
+		tw := m.pb.TrainingWitnesses[i]
+		nb := Neighbour{Witness: tw.Witness, BestGroup: tw.BestGroup, Agree: int(ct.agree), Compared: int(ct.compared),
+			Agreement: float64(ct.agree) / float64(ct.compared)}
+		if len(out) == n && !better(nb, out[n-1]) {
+			continue
+		}
+		// Insert in order, dropping the last if the list is full.
+		j := len(out)
+		out = append(out, nb)
+		for j > 0 && better(nb, out[j-1]) {
+			out[j] = out[j-1]
+			j--
+		}
+		out[j] = nb
+		if len(out) > n {
+			out = out[:n]
+		}
+	}
+	return out
 }
