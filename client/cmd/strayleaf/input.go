@@ -84,9 +84,14 @@ func writeJSON(w io.Writer, v any) error {
 	return enc.Encode(v)
 }
 
+// usageErr is bad command-line use; the command exits with status 2.
+type usageErr struct{ msg string }
+
+func (e *usageErr) Error() string { return e.msg }
+
 // usageError reports bad command-line use; it exits with status 2.
 func usageError(fsName, format string, args ...any) error {
-	return fmt.Errorf("%s: %s (see --help)", fsName, fmt.Sprintf(format, args...))
+	return &usageErr{fmt.Sprintf("%s: %s (see --help)", fsName, fmt.Sprintf(format, args...))}
 }
 
 func sha256Hex(b []byte) string {

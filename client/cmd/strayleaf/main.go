@@ -71,6 +71,10 @@ func run(ctx context.Context, args []string, stdout, stderr io.Writer) int {
 		return ee.code
 	}
 	fmt.Fprintf(stderr, "strayleaf %s: %v\n", c.name, err)
+	var ue *usageErr
+	if errors.As(err, &ue) {
+		return 2
+	}
 	return 1
 }
 
