@@ -10,7 +10,9 @@
 //     folds' witnesses (same rows, weights and options as the model, so the fold model reads
 //     witnesses exactly as the model does) and rescale its profiles as training does.
 //  3. Place each held-out witness whole against its fold's model: its best group there is the
-//     answer its fragments should reach. Cut simulated fragments out of it at many coverage levels,
+//     answer its fragments should reach. A witness whose own group is in doubt there (flagged
+//     mixed, or placed in different groups in different sections, see doubtful) has no single
+//     answer and is left out, so the confidence speaks of witnesses of one group. Cut simulated fragments out of it at many coverage levels,
 //     each level twice: a contiguous run of units, as a surviving leaf (simulate.CutContiguous),
 //     and units scattered over the text, as spot checks (simulate.CutScattered). Place each
 //     fragment against the fold's model and record its features (model.Features) and whether its
@@ -136,6 +138,8 @@ func (o Options) validate(trainWitnesses int) error {
 const (
 	FormLeaf      = simulate.FormLeaf
 	FormScattered = simulate.FormScattered
+	// formDoubtful marks, internally, a held-out witness left out as doubtful.
+	formDoubtful = "doubtful"
 )
 
 // Sample is one simulated fragment placed against a fold model.
@@ -177,6 +181,8 @@ type Report struct {
 	// the fragments.
 	RefitSeconds    float64 `json:"refit_seconds"`
 	FragmentSeconds float64 `json:"fragment_seconds"`
+	// Doubtful are the held-out witnesses left out because their own group is in doubt.
+	Doubtful []string `json:"doubtful_witnesses"`
 	// FoldIterations are the NMF iterations of each fold's refit.
 	FoldIterations []int `json:"fold_iterations"`
 	// SamplesDetail are the fragments themselves (not written to JSON).
@@ -250,6 +256,7 @@ func CalibrateContext(ctx context.Context, m *pb.Model, prep *prepare.Prepared, 
 	var samples []Sample
 	var refitTime, placeTime time.Duration
 	var foldIters []int
+	var doubtfulWitnesses []string
 	for f := 0; f < copt.Folds; f++ {
 		if err := ctx.Err(); err != nil {
 			return nil, err
@@ -272,7 +279,13 @@ func CalibrateContext(ctx context.Context, m *pb.Model, prep *prepare.Prepared, 
 		if err != nil {
 			return nil, fmt.Errorf("calibration: fold %d: %w", f+1, err)
 		}
-		samples = append(samples, s...)
+		for _, x := range s {
+			if x.Form == formDoubtful {
+				doubtfulWitnesses = append(doubtfulWitnesses, x.Witness)
+				continue
+			}
+			samples = append(samples, x)
+		}
 		placeTime += time.Since(t1)
 		if copt.Progress != nil {
 			copt.Progress(f+1, copt.Folds)
@@ -326,7 +339,7 @@ func CalibrateContext(ctx context.Context, m *pb.Model, prep *prepare.Prepared, 
 		Folds: copt.Folds, Samples: len(samples), ECE: ece, Bins: bins,
 		Features: cal.Features, Coefficients: cal.Coefficients, ByLevel: byLevel(samples), SamplesDetail: samples,
 		CalibrationSeconds: time.Since(start).Seconds(), RefitSeconds: refitTime.Seconds(), FragmentSeconds: placeTime.Seconds(),
-		FoldIterations: foldIters,
+		FoldIterations: foldIters, Doubtful: doubtfulWitnesses,
 	}
 	return rep, nil
 }
@@ -461,9 +474,13 @@ func fragments(fm *model.Model, prep *prepare.Prepared, held []int, fold int, co
 func witnessFragments(fm *model.Model, c *collation.Collation, w, fold, nu int, copt Options, ws *placement.Workspace) ([]Sample, error) {
 	row := c.Row(w)
 	siglum := c.Witness(w)
-	whole, err := fm.Place(siglum, readingsOf(c, row), ws)
+	all := readingsOf(c, row)
+	whole, err := fm.Place(siglum, all, ws)
 	if err != nil || whole.BestGroup == "" {
 		return nil, nil // a witness the fold model cannot place gives no answer to aim at
+	}
+	if doubtful(fm, whole, all, ws) {
+		return []Sample{{Fold: fold, Witness: siglum, Form: formDoubtful}}, nil
 	}
 	rng := rand.New(rand.NewPCG(copt.Seed^mixSeed(uint64(w)), uint64(fold)+0x637574)) // "cut"
 	var out []Sample
@@ -490,6 +507,32 @@ func witnessFragments(fm *model.Model, c *collation.Collation, w, fold, nu int, 
 		}
 	}
 	return out, nil
+}
+
+// doubtful reports a held-out witness whose own group is in doubt, so that its fragments have no
+// single right answer: one flagged mixed, or one with two sections placed in different groups,
+// each with a posterior of at least 0.9 under the groups' reading probabilities (the fold model
+// has no calibration yet to read a confidence from).
+func doubtful(fm *model.Model, whole *model.Placement, readings []model.Reading, ws *placement.Workspace) bool {
+	if whole.Mixed {
+		return true
+	}
+	sp, err := fm.PlaceBySection(whole.Witness, readings, ws)
+	if err != nil {
+		return false // no sections: nothing more to check
+	}
+	sure := math.Log(9)
+	group := ""
+	for _, s := range sp.Sections {
+		if s.Placement == nil || s.Placement.Features.PosteriorLogOdds < sure {
+			continue
+		}
+		if group != "" && s.BestGroup != group {
+			return true
+		}
+		group = s.BestGroup
+	}
+	return false
 }
 
 func mixSeed(z uint64) uint64 {
