@@ -129,22 +129,10 @@ func (r *run) stepH() (float64, error) {
 	err = parallelFor(p.n, r.workers, func(w, j int) error {
 		ws := &r.ws[w]
 		gp := ws.gp
-		list := p.colList[p.colListStart[j]:p.colListStart[j+1]]
+		sumRows(gp, r.sc, kp, p.colList[p.colListStart[j]:p.colListStart[j+1]])
 		if p.colSubtract[j] {
-			copy(gp, r.gfull)
-			for _, c := range list {
-				s := r.sc[int(c)*kp : (int(c)+1)*kp]
-				for i, v := range s {
-					gp[i] -= v
-				}
-			}
-		} else {
-			clear(gp)
-			for _, c := range list {
-				s := r.sc[int(c)*kp : (int(c)+1)*kp]
-				for i, v := range s {
-					gp[i] += v
-				}
+			for i, v := range r.gfull {
+				gp[i] = v - gp[i]
 			}
 		}
 		r.unpack(ws.g, gp, r.gfull)
@@ -316,17 +304,10 @@ func (r *run) objective(h []float64) float64 {
 	return sumNonNeg(r.frow)
 }
 
-// add sets dst += x; sub sets dst -= x (len(x) >= len(dst)).
+// add sets dst += x (len(x) >= len(dst)).
 func add(dst, x []float64) {
 	x = x[:len(dst)]
 	for i := range dst {
 		dst[i] += x[i]
-	}
-}
-
-func sub(dst, x []float64) {
-	x = x[:len(dst)]
-	for i := range dst {
-		dst[i] -= x[i]
 	}
 }

@@ -1,6 +1,7 @@
 package nmf
 
 import (
+	"context"
 	"encoding/binary"
 	"fmt"
 	"math"
@@ -56,4 +57,28 @@ func BenchmarkFactorize600x3000k12(b *testing.B) {
 	if os.Getenv("NMF_BENCH_VERBOSE") != "" {
 		fmt.Printf("go: iterations %d objective %.6f\n", res.Iterations, res.Objective)
 	}
+}
+
+// BenchmarkFactorizeRandom600x3000k12 is one start of a rank sweep: k = 12 from random factors,
+// on one core.
+func BenchmarkFactorizeRandom600x3000k12(b *testing.B) {
+	X, M := benchTable(b)
+	p, err := NewProblem(X, M)
+	if err != nil {
+		b.Fatal(err)
+	}
+	opt := DefaultOptions(12)
+	opt.Init, opt.Workers = InitRandom, 1
+	iters := 0
+	b.ResetTimer()
+	for i := 0; i < b.N; i++ {
+		opt.Seed = uint64(i)
+		res, err := p.Factorize(context.Background(), opt)
+		if err != nil {
+			b.Fatal(err)
+		}
+		iters += res.Iterations
+	}
+	b.ReportMetric(float64(iters)/float64(b.N), "iterations")
+	b.ReportMetric(float64(b.Elapsed().Nanoseconds())/float64(iters)/1e6, "ms/iteration")
 }

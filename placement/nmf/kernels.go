@@ -75,3 +75,28 @@ func gram(t, a []float64, k int, idx []int32) {
 		}
 	}
 }
+
+// sumRows sets c[i] = sum_e a[idx[e]*stride + i] for i < len(c): the sum of the listed rows.
+func sumRows(c, a []float64, stride int, idx []int32) {
+	n := len(c)
+	i := 0
+	for ; i+4 <= n; i += 4 {
+		var s0, s1, s2, s3 float64
+		for _, r := range idx {
+			o := int(r)*stride + i
+			x := a[o : o+4 : o+4]
+			s0 += x[0]
+			s1 += x[1]
+			s2 += x[2]
+			s3 += x[3]
+		}
+		c[i], c[i+1], c[i+2], c[i+3] = s0, s1, s2, s3
+	}
+	for ; i < n; i++ {
+		s := 0.0
+		for _, r := range idx {
+			s += a[int(r)*stride+i]
+		}
+		c[i] = s
+	}
+}

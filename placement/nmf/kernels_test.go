@@ -29,6 +29,16 @@ func TestKernels(t *testing.T) {
 				t.Errorf("gather k=%d: c[%d] = %g, want %g", k, i, c[i], want)
 			}
 		}
+		sumRows(c, a, k, idx)
+		for i := 0; i < k; i++ {
+			want := 0.0
+			for _, r := range idx {
+				want += a[int(r)*k+i]
+			}
+			if math.Abs(c[i]-want) > 1e-12 {
+				t.Errorf("sumRows k=%d: c[%d] = %g, want %g", k, i, c[i], want)
+			}
+		}
 		tri := make([]float64, k*(k+1)/2)
 		gram(tri, a, k, idx)
 		p := 0

@@ -106,7 +106,9 @@ func TestKKT(t *testing.T) {
 func TestUnobservedCellsAreIgnored(t *testing.T) {
 	X := lowRank(9, 30, 20, 3, 0.2)
 	M := randomMask(10, 30, 20, 0.25)
-	ref, err := Factorize(X, M, DefaultOptions(3))
+	opt := DefaultOptions(3)
+	opt.MaxIterations = 30
+	ref, err := Factorize(X, M, opt)
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -119,7 +121,7 @@ func TestUnobservedCellsAreIgnored(t *testing.T) {
 				}
 			}
 		}
-		res, err := Factorize(Y, M, DefaultOptions(3))
+		res, err := Factorize(Y, M, opt)
 		if err != nil {
 			t.Fatal(err)
 		}
@@ -135,7 +137,6 @@ func TestExactLowRankWithLacunae(t *testing.T) {
 	X := lowRank(11, 40, 30, 3, 0)
 	M := randomMask(12, 40, 30, 0.2)
 	opt := DefaultOptions(3)
-	opt.Restarts = 3
 	opt.Tolerance = 1e-12
 	opt.MaxIterations = 2000
 	res, err := Factorize(X, M, opt)
@@ -204,6 +205,7 @@ func TestRestartsKeepTheBest(t *testing.T) {
 	opt := DefaultOptions(4)
 	opt.Restarts = 5
 	opt.Seed = 7
+	opt.MaxIterations = 40
 	var progress []int
 	opt.Progress = func(done, total int) {
 		if total != 5 {

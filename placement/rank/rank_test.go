@@ -8,7 +8,6 @@ import (
 	"strings"
 	"testing"
 
-	"strayleaf/placement/nmf"
 	"strayleaf/placement/prepare"
 	"strayleaf/placement/simulate"
 )
@@ -146,14 +145,16 @@ func simulated(t *testing.T, cfg simulate.Config) (*prepare.Prepared, int) {
 // family and two further families, with mixed, block-mixed and fragmentary witnesses and
 // lacunae) the rule recovers the number of groups, within one.
 func TestSweepFindsSimulatedGroups(t *testing.T) {
-	p, groups := simulated(t, simulate.DefaultConfig())
+	cfg := simulate.DefaultConfig()
+	cfg.Units = 120
+	p, groups := simulated(t, cfg)
 	var calls, total int
-	res, err := Sweep(p.X, p.M, 2, 8, 5, nmf.DefaultOptions(1), func(done, tot int) { calls, total = done, tot })
+	res, err := Sweep(p.X, p.M, 3, 7, 4, SweepOptions(), func(done, tot int) { calls, total = done, tot })
 	if err != nil {
 		t.Fatal(err)
 	}
-	if total != 8*5 || calls != total { // k = 1..8, k = 1 for the gain of k = 2
-		t.Errorf("progress ended at %d of %d; expected 40 of 40", calls, total)
+	if total != 6*4 || calls != total { // k = 2..7, k = 2 for the gain of k = 3
+		t.Errorf("progress ended at %d of %d; expected 24 of 24", calls, total)
 	}
 	for _, kr := range res.Ks {
 		t.Logf("k=%d objective %.1f gain %.1f elbow %.3g cophenetic %.4f dispersion %.4f sparseness W %.3f H %.3f",
@@ -163,11 +164,11 @@ func TestSweepFindsSimulatedGroups(t *testing.T) {
 	if d := res.Recommended - groups; d < -1 || d > 1 {
 		t.Errorf("recommended k = %d for %d simulated groups", res.Recommended, groups)
 	}
-	if res.BaseK != 1 || !(res.BaseObjective > res.Ks[0].Objective) {
+	if res.BaseK != 2 || !(res.BaseObjective > res.Ks[0].Objective) {
 		t.Errorf("base k %d objective %g; k = 2 objective %g", res.BaseK, res.BaseObjective, res.Ks[0].Objective)
 	}
 	for i, kr := range res.Ks {
-		if kr.Consensus.Runs() != 5 || len(kr.Objectives) != 5 || kr.Best == nil || kr.Best.Objective != kr.Objective {
+		if kr.Consensus.Runs() != 4 || len(kr.Objectives) != 4 || kr.Best == nil || kr.Best.Objective != kr.Objective {
 			t.Fatalf("k = %d: %d runs in the consensus, %d objectives", kr.K, kr.Consensus.Runs(), len(kr.Objectives))
 		}
 		if i > 0 && kr.Objective > res.Ks[i-1].Objective*1.001 {
@@ -201,7 +202,7 @@ func TestSweepSameWhateverGOMAXPROCS(t *testing.T) {
 	run := func(procs int) *SweepResult {
 		old := runtime.GOMAXPROCS(procs)
 		defer runtime.GOMAXPROCS(old)
-		opt := nmf.DefaultOptions(1)
+		opt := SweepOptions()
 		opt.Seed = 11
 		res, err := Sweep(p.X, p.M, 3, 5, 3, opt, nil)
 		if err != nil {
@@ -229,7 +230,7 @@ func TestSweepSameWhateverGOMAXPROCS(t *testing.T) {
 
 func TestSweepBadInput(t *testing.T) {
 	p, _ := simulated(t, simulate.DefaultConfig())
-	opt := nmf.DefaultOptions(1)
+	opt := SweepOptions()
 	for _, c := range []struct {
 		name             string
 		kMin, kMax, runs int

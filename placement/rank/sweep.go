@@ -18,6 +18,8 @@ type KResult struct {
 	// Objective is the lowest objective over the starts; Objectives that of each start.
 	Objective  float64
 	Objectives []float64
+	// Iterations holds the ANLS iterations of each start.
+	Iterations []int
 	// SparsenessW and SparsenessH are the mean Hoyer sparseness of the columns of W and of H of
 	// the best start.
 	SparsenessW, SparsenessH float64
@@ -48,11 +50,26 @@ type SweepResult struct {
 	Reason      string
 }
 
+// Sweep defaults: a sweep needs each k's grouping and the shape of the objective curve, not the
+// last digits of each fit, so its starts stop sooner than a model's training.
+const (
+	SweepTolerance     = 1e-4
+	SweepMaxIterations = 100
+)
+
+// SweepOptions returns the NMF options a sweep uses by default: nmf.DefaultOptions with
+// tolerance SweepTolerance and at most SweepMaxIterations iterations per start.
+func SweepOptions() nmf.Options {
+	o := nmf.DefaultOptions(1)
+	o.Tolerance, o.MaxIterations = SweepTolerance, SweepMaxIterations
+	return o
+}
+
 // Sweep factorises X (mask M) for every k from kMin to kMax from restarts random starts each,
 // measures each k (package doc) and recommends one (Recommend with DefaultRule). To measure the
 // gain of kMin it also factorises kMin - 1 (if kMin > 1) from as many starts. opt gives the NMF
-// settings (tolerance, iteration cap, seed, workers); its K, Init, Restarts and Progress are set
-// by Sweep. Start r of rank k is a separate run from random factors seeded from opt.Seed, k and
+// settings (tolerance, iteration cap, seed, workers; start from SweepOptions); its K, Init,
+// Restarts, Progress and OnIteration are set by Sweep. Start r of rank k is a separate run from random factors seeded from opt.Seed, k and
 // r; the runs are spread over opt.Workers goroutines (all cores by default), each run on one, so
 // the result depends only on the data and the options, not on the number of workers. progress,
 // if set, is called after each run with the number done and the total.
@@ -170,9 +187,10 @@ func runSeed(seed uint64, k, r int) uint64 {
 
 // measure computes the measures of one k from its runs.
 func measure(k int, runs []*nmf.Result, n int) (KResult, error) {
-	kr := KResult{K: k, Objectives: make([]float64, len(runs)), Consensus: NewConsensus(n)}
+	kr := KResult{K: k, Objectives: make([]float64, len(runs)), Iterations: make([]int, len(runs)), Consensus: NewConsensus(n)}
 	for r, res := range runs {
 		kr.Objectives[r] = res.Objective
+		kr.Iterations[r] = res.Iterations
 		if kr.Best == nil || res.Objective < kr.Best.Objective {
 			kr.Best = res
 		}
