@@ -30,6 +30,7 @@ import (
 	"strayleaf/api/gateway"
 	"strayleaf/api/metrics"
 	"strayleaf/api/server"
+	"strayleaf/api/wire"
 	"strayleaf/modelstore"
 	pb "strayleaf/proto/strayleaf/v1"
 )
@@ -173,6 +174,7 @@ func Start(ctx context.Context, cfg Config) (d *Daemon, err error) {
 	d.health = health.NewServer()
 	newGRPC := func(via string, creds credentials.TransportCredentials) *grpc.Server {
 		opts := []grpc.ServerOption{
+			grpc.ForceServerCodecV2(wire.Codec()),
 			grpc.MaxRecvMsgSize(cfg.Limits.MaxMessageBytes),
 			grpc.MaxSendMsgSize(cfg.Limits.MaxMessageBytes + 1<<20),
 			grpc.ChainUnaryInterceptor(d.metrics.UnaryInterceptor(via), logUnary(log, via), d.checker.UnaryInterceptor(), requestTimeout(cfg.RequestTimeout)),
@@ -205,7 +207,8 @@ func Start(ctx context.Context, cfg Config) (d *Daemon, err error) {
 		go d.serve("gateway loopback", func() error { return d.grpcGate.Serve(gateLis) })
 		d.gateConn, err = grpc.NewClient(gateLis.Addr().String(),
 			grpc.WithTransportCredentials(insecure.NewCredentials()),
-			grpc.WithDefaultCallOptions(grpc.MaxCallRecvMsgSize(cfg.Limits.MaxMessageBytes+1<<20), grpc.MaxCallSendMsgSize(cfg.Limits.MaxMessageBytes)))
+			grpc.WithDefaultCallOptions(grpc.ForceCodecV2(wire.Codec()),
+				grpc.MaxCallRecvMsgSize(cfg.Limits.MaxMessageBytes+1<<20), grpc.MaxCallSendMsgSize(cfg.Limits.MaxMessageBytes)))
 		if err != nil {
 			return nil, fmt.Errorf("gateway connection: %w", err)
 		}

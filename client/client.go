@@ -23,6 +23,7 @@ import (
 	"google.golang.org/grpc/credentials"
 	"google.golang.org/grpc/credentials/insecure"
 
+	"strayleaf/api/wire"
 	pb "strayleaf/proto/strayleaf/v1"
 )
 
@@ -117,7 +118,7 @@ func Dial(addr string, opts ...Option) (*Client, error) {
 		creds = credentials.NewTLS(cfg.tls)
 	}
 	dopts := []grpc.DialOption{grpc.WithTransportCredentials(creds),
-		grpc.WithDefaultCallOptions(grpc.MaxCallRecvMsgSize(cfg.maxBytes), grpc.MaxCallSendMsgSize(cfg.maxBytes))}
+		grpc.WithDefaultCallOptions(grpc.ForceCodecV2(wire.Codec()), grpc.MaxCallRecvMsgSize(cfg.maxBytes), grpc.MaxCallSendMsgSize(cfg.maxBytes))}
 	if cfg.token != "" {
 		dopts = append(dopts, grpc.WithPerRPCCredentials(bearer(cfg.token)))
 	}

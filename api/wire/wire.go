@@ -1,0 +1,219 @@
+// Package wire is the gRPC codec of strayleaf: standard protobuf encoding throughout, with a
+// hand-written encoder and decoder for the placement requests (PlaceRequest and
+// PlaceStreamRequest), which carry hundreds of small readings per witness and dominate the cost
+// of the generic protobuf code. The bytes on the wire are exactly protobuf's: a peer using any
+// other protobuf library reads and writes them alike.
+//
+// The decoder copies a request's bytes once and makes every string of the request point into
+// that copy (no allocation per reading), and allocates the readings in one block. Anything it
+// does not expect (an unknown wire type for a known field, invalid UTF-8, a truncated message)
+// is handed to the standard decoder, so errors and edge cases stay exactly protobuf's.
+package wire
+
+import (
+	"errors"
+	"unicode/utf8"
+	"unsafe"
+
+	"google.golang.org/grpc/encoding"
+	"google.golang.org/grpc/mem"
+	"google.golang.org/protobuf/encoding/protowire"
+	"google.golang.org/protobuf/proto"
+
+	pb "strayleaf/proto/strayleaf/v1"
+)
+
+// Name is the codec's name: it is the protobuf codec, so it keeps protobuf's name.
+const Name = "proto"
+
+// Codec returns the codec; give it to the server with grpc.ForceServerCodecV2 and to clients
+// with grpc.ForceCodecV2.
+func Codec() encoding.CodecV2 { return codec{std: encoding.GetCodecV2(Name)} }
+
+type codec struct{ std encoding.CodecV2 }
+
+func (codec) Name() string { return Name }
+
+func (c codec) Marshal(v any) (mem.BufferSlice, error) {
+	switch m := v.(type) {
+	case *pb.PlaceRequest:
+		b := make([]byte, 0, RequestSize(m.GetModel(), m.GetWitness(), m.GetReadings()))
+		return mem.BufferSlice{mem.SliceBuffer(AppendRequest(b, m.GetModel(), m.GetWitness(), m.GetReadings()))}, nil
+	case *pb.PlaceStreamRequest:
+		b := make([]byte, 0, RequestSize(m.GetModel(), m.GetWitness(), m.GetReadings()))
+		return mem.BufferSlice{mem.SliceBuffer(AppendRequest(b, m.GetModel(), m.GetWitness(), m.GetReadings()))}, nil
+	}
+	return c.std.Marshal(v)
+}
+
+func (c codec) Unmarshal(data mem.BufferSlice, v any) error {
+	switch m := v.(type) {
+	case *pb.PlaceRequest:
+		buf := data.Materialize()
+		if decodeRequest(buf, &m.Model, &m.Witness, &m.Readings) == nil {
+			return nil
+		}
+		m.Reset()
+		return proto.Unmarshal(buf, m)
+	case *pb.PlaceStreamRequest:
+		buf := data.Materialize()
+		if decodeRequest(buf, &m.Model, &m.Witness, &m.Readings) == nil {
+			return nil
+		}
+		m.Reset()
+		return proto.Unmarshal(buf, m)
+	}
+	return c.std.Unmarshal(data, v)
+}
+
+// Field numbers shared by PlaceRequest, PlaceStreamRequest and SuggestRequest (model 1,
+// witness 2, readings 3) and WitnessReading (unit 1, reading 2).
+const (
+	fieldModel    = 1
+	fieldWitness  = 2
+	fieldReadings = 3
+	fieldUnit     = 1
+	fieldReading  = 2
+)
+
+// RequestSize is the length of the encoding AppendRequest writes.
+func RequestSize(model, witness string, readings []*pb.WitnessReading) int {
+	n := stringSize(model) + stringSize(witness)
+	for _, r := range readings {
+		inner := stringSize(r.GetUnit()) + stringSize(r.GetReading())
+		n += 1 + protowire.SizeBytes(inner)
+	}
+	return n
+}
+
+func stringSize(s string) int {
+	if s == "" {
+		return 0
+	}
+	return 1 + protowire.SizeBytes(len(s))
+}
+
+// AppendRequest appends the protobuf encoding of a placement request to b, as protobuf-go
+// writes it (fields in number order, empty strings left out).
+func AppendRequest(b []byte, model, witness string, readings []*pb.WitnessReading) []byte {
+	b = appendString(b, fieldModel, model)
+	b = appendString(b, fieldWitness, witness)
+	for _, r := range readings {
+		unit, reading := r.GetUnit(), r.GetReading()
+		n := stringSize(unit) + stringSize(reading)
+		b = protowire.AppendTag(b, fieldReadings, protowire.BytesType)
+		b = protowire.AppendVarint(b, uint64(n))
+		b = appendString(b, fieldUnit, unit)
+		b = appendString(b, fieldReading, reading)
+	}
+	return b
+}
+
+func appendString(b []byte, num protowire.Number, s string) []byte {
+	if s == "" {
+		return b
+	}
+	b = protowire.AppendTag(b, num, protowire.BytesType)
+	return protowire.AppendString(b, s)
+}
+
+// errFallback sends a message to the standard decoder.
+var errFallback = errors.New("wire: not handled by the fast decoder")
+
+// decodeRequest decodes buf, which it keeps: the strings point into it.
+func decodeRequest(buf []byte, model, witness *string, readings *[]*pb.WitnessReading) error {
+	if len(buf) == 0 {
+		return nil
+	}
+	all := unsafe.String(&buf[0], len(buf))
+	// First pass: count the readings, so that they are allocated at once.
+	n := 0
+	for rest := buf; len(rest) > 0; {
+		num, typ, tl := protowire.ConsumeTag(rest)
+		if tl < 0 || num > protowire.MaxValidNumber {
+			return errFallback
+		}
+		vl := protowire.ConsumeFieldValue(num, typ, rest[tl:])
+		if vl < 0 {
+			return errFallback
+		}
+		if num == fieldReadings && typ == protowire.BytesType {
+			n++
+		}
+		rest = rest[tl+vl:]
+	}
+	backing := make([]pb.WitnessReading, n)
+	ptrs := make([]*pb.WitnessReading, n)
+	i := 0
+	str := func(off, l int) (string, error) {
+		s := all[off : off+l]
+		if !utf8.ValidString(s) {
+			return "", errFallback
+		}
+		return s, nil
+	}
+	for off := 0; off < len(buf); {
+		num, typ, tl := protowire.ConsumeTag(buf[off:])
+		off += tl
+		switch {
+		case (num == fieldModel || num == fieldWitness || num == fieldReadings) && typ != protowire.BytesType:
+			return errFallback
+		case num == fieldModel || num == fieldWitness:
+			v, vl := protowire.ConsumeBytes(buf[off:])
+			s, err := str(off+vl-len(v), len(v))
+			if err != nil {
+				return err
+			}
+			if num == fieldModel {
+				*model = s
+			} else {
+				*witness = s
+			}
+			off += vl
+		case num == fieldReadings:
+			v, vl := protowire.ConsumeBytes(buf[off:])
+			start := off + vl - len(v)
+			r := &backing[i]
+			for p := 0; p < len(v); {
+				rn, rt, rtl := protowire.ConsumeTag(v[p:])
+				if rtl < 0 || rn > protowire.MaxValidNumber {
+					return errFallback
+				}
+				p += rtl
+				if (rn == fieldUnit || rn == fieldReading) && rt == protowire.BytesType {
+					s, sl := protowire.ConsumeBytes(v[p:])
+					if sl < 0 {
+						return errFallback
+					}
+					val, err := str(start+p+sl-len(s), len(s))
+					if err != nil {
+						return err
+					}
+					if rn == fieldUnit {
+						r.Unit = val
+					} else {
+						r.Reading = val
+					}
+					p += sl
+					continue
+				}
+				if rn == fieldUnit || rn == fieldReading {
+					return errFallback
+				}
+				// Unknown fields are skipped (protobuf keeps them; nothing here reads them).
+				fl := protowire.ConsumeFieldValue(rn, rt, v[p:])
+				if fl < 0 {
+					return errFallback
+				}
+				p += fl
+			}
+			ptrs[i] = r
+			i++
+			off += vl
+		default:
+			off += protowire.ConsumeFieldValue(num, typ, buf[off:])
+		}
+	}
+	*readings = ptrs
+	return nil
+}

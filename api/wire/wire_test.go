@@ -1,0 +1,141 @@
+package wire
+
+import (
+	"bytes"
+	"fmt"
+	"testing"
+
+	"google.golang.org/grpc/mem"
+	"google.golang.org/protobuf/encoding/protowire"
+	"google.golang.org/protobuf/proto"
+
+	pb "strayleaf/proto/strayleaf/v1"
+)
+
+func sample(n int) *pb.PlaceRequest {
+	r := &pb.PlaceRequest{Model: "demo@current", Witness: "Ov-f3"}
+	for u := range n {
+		wr := &pb.WitnessReading{Unit: fmt.Sprintf("oil.%02d", u+1), Reading: fmt.Sprintf("rd%d", u%5)}
+		if u == 3 {
+			wr.Reading = "" // protobuf leaves empty strings out
+		}
+		r.Readings = append(r.Readings, wr)
+	}
+	return r
+}
+
+// The encoder writes exactly what protobuf-go writes (deterministic marshal), which the
+// standard decoder reads back as the same message.
+func TestAppendRequestMatchesProtobuf(t *testing.T) {
+	for _, m := range []*pb.PlaceRequest{{}, {Witness: "x"}, sample(1), sample(400), {Readings: []*pb.WitnessReading{{}}}} {
+		want, err := proto.MarshalOptions{Deterministic: true}.Marshal(m)
+		if err != nil {
+			t.Fatal(err)
+		}
+		got := AppendRequest(nil, m.GetModel(), m.GetWitness(), m.GetReadings())
+		if n := RequestSize(m.GetModel(), m.GetWitness(), m.GetReadings()); n != len(want) {
+			t.Errorf("RequestSize = %d; the encoding has %d bytes", n, len(want))
+		}
+		if !bytes.Equal(got, want) {
+			t.Fatalf("AppendRequest differs from proto.Marshal for %v:\n got %x\nwant %x", m, got, want)
+		}
+	}
+}
+
+// decodeBoth decodes b with the codec and with proto.Unmarshal and compares the outcomes.
+func decodeBoth(t *testing.T, b []byte) {
+	t.Helper()
+	var std pb.PlaceRequest
+	stdErr := proto.Unmarshal(b, &std)
+	var fast pb.PlaceRequest
+	fastErr := Codec().Unmarshal(mem.BufferSlice{mem.SliceBuffer(append([]byte(nil), b...))}, &fast)
+	if (stdErr == nil) != (fastErr == nil) {
+		t.Fatalf("%x: protobuf says %v, the codec %v", b, stdErr, fastErr)
+	}
+	if stdErr != nil {
+		return
+	}
+	// Unknown fields are kept by protobuf and dropped by the fast decoder; compare the rest.
+	std.ProtoReflect().SetUnknown(nil)
+	for _, r := range std.Readings {
+		r.ProtoReflect().SetUnknown(nil)
+	}
+	fast.ProtoReflect().SetUnknown(nil)
+	for _, r := range fast.Readings {
+		r.ProtoReflect().SetUnknown(nil)
+	}
+	if !proto.Equal(&std, &fast) {
+		t.Fatalf("%x:\nprotobuf %v\n   codec %v", b, &std, &fast)
+	}
+	var stream pb.PlaceStreamRequest
+	if err := Codec().Unmarshal(mem.BufferSlice{mem.SliceBuffer(append([]byte(nil), b...))}, &stream); err != nil ||
+		stream.Model != fast.Model || stream.Witness != fast.Witness || len(stream.Readings) != len(fast.Readings) {
+		t.Fatalf("stream request decodes differently: %v %v", &stream, err)
+	}
+}
+
+func TestDecodeMatchesProtobuf(t *testing.T) {
+	good, _ := proto.Marshal(sample(40))
+	var odd []byte
+	odd = protowire.AppendTag(odd, 9, protowire.VarintType) // an unknown field
+	odd = protowire.AppendVarint(odd, 7)
+	odd = append(odd, good...)
+	odd = protowire.AppendTag(odd, fieldWitness, protowire.BytesType) // the last value wins
+	odd = protowire.AppendString(odd, "second")
+	inner := protowire.AppendTag(nil, 5, protowire.Fixed32Type) // unknown field in a reading
+	inner = protowire.AppendFixed32(inner, 1)
+	inner = appendString(inner, fieldUnit, "u")
+	odd = protowire.AppendTag(odd, fieldReadings, protowire.BytesType)
+	odd = protowire.AppendBytes(odd, inner)
+	badUTF8 := appendString(nil, fieldWitness, "ok")
+	badUTF8 = protowire.AppendTag(badUTF8, fieldModel, protowire.BytesType)
+	badUTF8 = protowire.AppendBytes(badUTF8, []byte{0xff, 0xfe})
+	wrongType := protowire.AppendTag(nil, fieldModel, protowire.VarintType)
+	wrongType = protowire.AppendVarint(wrongType, 3)
+	for name, b := range map[string][]byte{
+		"empty": nil, "sample": good, "unknown fields and repeats": odd, "invalid UTF-8": badUTF8,
+		"wrong wire type": wrongType, "truncated": good[:len(good)-3], "garbage": []byte{0x1a, 0xff, 0xff, 0xff},
+	} {
+		t.Run(name, func(t *testing.T) { decodeBoth(t, b) })
+	}
+}
+
+func FuzzDecodeMatchesProtobuf(f *testing.F) {
+	good, _ := proto.Marshal(sample(5))
+	f.Add(good)
+	f.Add([]byte{0x1a, 0x02, 0x0a, 0x00})
+	f.Fuzz(func(t *testing.T, b []byte) { decodeBoth(t, b) })
+}
+
+// Other messages go through the standard codec.
+func TestOtherMessagesUseProtobuf(t *testing.T) {
+	m := &pb.GetModelRequest{Model: "demo@2"}
+	data, err := Codec().Marshal(m)
+	if err != nil {
+		t.Fatal(err)
+	}
+	var back pb.GetModelRequest
+	if err := Codec().Unmarshal(data, &back); err != nil || back.Model != "demo@2" {
+		t.Fatalf("%v %v", &back, err)
+	}
+}
+
+func BenchmarkDecode400(b *testing.B) {
+	raw, _ := proto.Marshal(sample(400))
+	b.ReportAllocs()
+	for b.Loop() {
+		var r pb.PlaceRequest
+		if err := Codec().Unmarshal(mem.BufferSlice{mem.SliceBuffer(raw)}, &r); err != nil {
+			b.Fatal(err)
+		}
+	}
+}
+
+func BenchmarkEncode400(b *testing.B) {
+	m := sample(400)
+	buf := make([]byte, 0, 8192)
+	b.ReportAllocs()
+	for b.Loop() {
+		buf = AppendRequest(buf[:0], m.Model, m.Witness, m.Readings)
+	}
+}
