@@ -98,7 +98,7 @@ func build(t testing.TB, s tradSpec) *tradition {
 		t.Fatal(err)
 	}
 	k := len(tr.Truth.Groups)
-	m, rep, err := Train(kept.Collation, model.TrainOptions{Groups: k, Seed: 5}, s.calibration())
+	m, rep, err := Train(kept.Collation, model.TrainOptions{Groups: k, Seed: 5}, Options{Seed: 9, Levels: testLevels, Witnesses: 45})
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -454,14 +454,4 @@ func TestReliabilityPlot(t *testing.T) {
 			t.Fatal(err)
 		}
 	}
-}
-
-// calibration returns the calibration options of a test tradition: the defaults for the
-// guided-checking tradition (whose check depends on how finely confidence is resolved near 0.9),
-// fewer fragments for the others to keep the tests fast.
-func (s tradSpec) calibration() Options {
-	if s.name == "fine-groups" {
-		return Options{Seed: 9}
-	}
-	return Options{Seed: 9, Levels: testLevels, Witnesses: 45}
 }
