@@ -120,14 +120,44 @@ func TestPublishListPlaceOverGRPCAndREST(t *testing.T) {
 		}
 	}
 
-	// Suggest answers the version used and, with no ranking in the model yet, an empty list.
-	used, sugg, err := c.Suggest(ctx, "wardens", frags[0].Siglum, frags[0].Readings, 5)
-	if err != nil || used != "wardens@1" || len(sugg) != 0 {
-		t.Errorf("Suggest = %q, %v, %v; want wardens@1 and no suggestions", used, sugg, err)
+	// Suggest: the model's own ranking, the same over both doors; with nothing checked, the
+	// probe list.
+	for _, tc := range []struct {
+		w   client.Witness
+		opt client.SuggestOptions
+	}{
+		{frags[0], client.SuggestOptions{Top: 5}},
+		{client.Witness{Siglum: "blank"}, client.SuggestOptions{}},
+		{frags[1], client.SuggestOptions{Top: 3, Candidates: []string{frags[0].Readings[0].Unit, frags[0].Readings[1].Unit, "toll.40"}}},
+	} {
+		want := localSuggestions(t, m, "wardens@1", tc.w, tc.opt)
+		got, err := c.SuggestUnits(ctx, "wardens", tc.w.Siglum, tc.w.Readings, tc.opt)
+		if err != nil {
+			t.Fatalf("Suggest %s: %v", tc.w.Siglum, err)
+		}
+		if !reflect.DeepEqual(got, want) {
+			t.Errorf("Suggest %s:\n got %+v\nwant %+v", tc.w.Siglum, got, want)
+		}
+		if (len(tc.w.Readings) == 0) != got.Probe || len(got.Units) == 0 {
+			t.Errorf("Suggest %s: probe %v with %d readings, %d units", tc.w.Siglum, got.Probe, len(tc.w.Readings), len(got.Units))
+		}
+		body := map[string]any{"witness": tc.w.Siglum, "readings": nonNilReadings(tc.w.Readings), "max_units": tc.opt.Top}
+		if tc.opt.Candidates != nil {
+			body["candidates"] = tc.opt.Candidates
+		}
+		resp := td.rest(t, "POST", "/v1/models/wardens/suggestions", td.tokens.place, body)
+		if resp.status != 200 {
+			t.Fatalf("REST suggest: %d %s", resp.status, resp.body)
+		}
+		var viaREST client.Suggestions
+		resp.decode(t, &viaREST)
+		if !reflect.DeepEqual(&viaREST, got) {
+			t.Errorf("REST and gRPC suggestions differ for %s:\nREST %+v\ngRPC %+v", tc.w.Siglum, viaREST, got)
+		}
 	}
-	resp = td.rest(t, "POST", "/v1/models/wardens/suggestions", td.tokens.place, placeBody(frags[0]))
-	if resp.status != 200 || !strings.Contains(string(resp.body), `"suggestions":[]`) || !strings.Contains(string(resp.body), `"model":"wardens@1"`) {
-		t.Errorf("REST suggest: %d %s", resp.status, resp.body)
+	if _, err := c.SuggestUnits(ctx, "wardens", "F", nil, client.SuggestOptions{Candidates: []string{"lamp.01"}}); client.Code(err) != codes.InvalidArgument ||
+		len(err.(*client.Error).Violations) != 1 || err.(*client.Error).Violations[0].Field != "candidates[0]" {
+		t.Errorf("Suggest with an unknown candidate: %v", err)
 	}
 
 	// A second version, an alias moved over REST, an export, and a delete refused while aliased.

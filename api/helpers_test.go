@@ -100,6 +100,29 @@ func localPlacement(t testing.TB, m *model.Model, ref string, w client.Witness) 
 	return out
 }
 
+// localSuggestions is what the API must answer to Suggest: the model's own, in the client's
+// shape.
+func localSuggestions(t testing.TB, m *model.Model, ref string, w client.Witness, opt client.SuggestOptions) *client.Suggestions {
+	t.Helper()
+	sg, err := m.Suggest(w.Siglum, modelReadings(w.Readings), model.SuggestOptions{Top: opt.Top, Candidates: opt.Candidates})
+	if err != nil {
+		t.Fatalf("local suggestions for %s: %v", w.Siglum, err)
+	}
+	out := &client.Suggestions{Witness: sg.Witness, Model: ref, Probe: sg.Probe, EntropyBits: sg.Entropy, Posterior: []client.GroupShare{}, Units: []client.Suggestion{}}
+	for _, g := range sg.Posterior {
+		out.Posterior = append(out.Posterior, client.GroupShare{Group: g.Group, Share: g.Share})
+	}
+	for _, u := range sg.Units {
+		s := client.Suggestion{Unit: u.Unit, Gain: u.Gain, Hints: map[string]string{}, Readings: []client.ReadingHint{}}
+		for _, h := range u.Hints {
+			s.Hints[h.Reading] = h.Favours
+			s.Readings = append(s.Readings, client.ReadingHint{Reading: h.Reading, Probability: h.Probability, Favours: h.Favours})
+		}
+		out.Units = append(out.Units, s)
+	}
+	return out
+}
+
 func nonNil(s []string) []string {
 	if s == nil {
 		return []string{}

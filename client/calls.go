@@ -145,25 +145,79 @@ func (c *Client) PlaceAll(ctx context.Context, model string, witnesses []Witness
 	}
 }
 
-// Suggestion is a unit worth checking next.
-type Suggestion struct {
-	Unit string  `json:"unit"`
-	Gain float64 `json:"gain"`
+// SuggestOptions are the settings of Suggest.
+type SuggestOptions struct {
+	// Top is the number of units to name (0: the server's default, 10).
+	Top int
+	// Candidates, if not nil, are the unit ids that can still be checked; no other unit is
+	// suggested.
+	Candidates []string
 }
 
-// Suggest asks which units are worth checking next for a partial witness (at most max; 0 for
-// the server's default). It returns the version used. The list is empty while the server has
-// no ranking of units.
-func (c *Client) Suggest(ctx context.Context, model, witness string, readings []Reading, max int) (string, []Suggestion, error) {
-	resp, err := c.places.Suggest(ctx, &pb.SuggestRequest{Model: model, Witness: witness, Readings: readingsProto(readings), MaxUnits: int32(max)})
+// Suggestions is the answer of Suggest, with the field names of `strayleaf suggest --json`.
+type Suggestions struct {
+	Witness string `json:"witness"`
+	Model   string `json:"model"`
+	// Probe is true when nothing was checked yet and Units is the model's probe list.
+	Probe bool `json:"probe"`
+	// Posterior is the distribution over the groups given the readings so far, most probable
+	// first; EntropyBits its entropy.
+	Posterior   []GroupShare `json:"posterior"`
+	EntropyBits float64      `json:"entropy_bits"`
+	Units       []Suggestion `json:"units"`
+}
+
+// Suggestion is a unit worth checking next: Gain is the expected reduction of the uncertainty
+// about the group, in bits; Hints maps each likely reading to the group it would favour, and
+// Readings gives their predicted probabilities, most probable first.
+type Suggestion struct {
+	Unit     string            `json:"unit"`
+	Gain     float64           `json:"gain"`
+	Hints    map[string]string `json:"hints"`
+	Readings []ReadingHint     `json:"readings"`
+}
+
+// ReadingHint is a likely reading of a suggested unit.
+type ReadingHint struct {
+	Reading     string  `json:"reading"`
+	Probability float64 `json:"probability"`
+	Favours     string  `json:"favours"`
+}
+
+// Suggest names at most top units worth checking next for a partial witness (top 0: the
+// server's default, 10), and the model version used. SuggestUnits gives the whole answer.
+func (c *Client) Suggest(ctx context.Context, model, witness string, readings []Reading, top int) (string, []Suggestion, error) {
+	s, err := c.SuggestUnits(ctx, model, witness, readings, SuggestOptions{Top: top})
 	if err != nil {
-		return "", nil, c.wrap("suggest "+witness, err)
+		return "", nil, err
 	}
-	out := make([]Suggestion, 0, len(resp.GetSuggestions()))
-	for _, s := range resp.GetSuggestions() {
-		out = append(out, Suggestion{Unit: s.GetUnit(), Gain: s.GetGain()})
+	return s.Model, s.Units, nil
+}
+
+// SuggestUnits asks which units are worth checking next for a partial witness, given the
+// readings checked so far (none: the model's probe list), with the posterior over the groups.
+func (c *Client) SuggestUnits(ctx context.Context, model, witness string, readings []Reading, opt SuggestOptions) (*Suggestions, error) {
+	resp, err := c.places.Suggest(ctx, &pb.SuggestRequest{Model: model, Witness: witness, Readings: readingsProto(readings),
+		MaxUnits: int32(opt.Top), Candidates: opt.Candidates})
+	if err != nil {
+		return nil, c.wrap("suggest "+witness, err)
 	}
-	return resp.GetModel(), out, nil
+	out := &Suggestions{Witness: resp.GetWitness(), Model: resp.GetModel(), Probe: resp.GetProbe(), EntropyBits: resp.GetEntropyBits(),
+		Posterior: make([]GroupShare, 0, len(resp.GetPosterior())), Units: make([]Suggestion, 0, len(resp.GetUnits()))}
+	for _, g := range resp.GetPosterior() {
+		out.Posterior = append(out.Posterior, GroupShare{Group: g.GetGroup(), Share: g.GetShare()})
+	}
+	for _, u := range resp.GetUnits() {
+		s := Suggestion{Unit: u.GetUnit(), Gain: u.GetGain(), Hints: map[string]string{}, Readings: make([]ReadingHint, 0, len(u.GetReadings()))}
+		for k, v := range u.GetHints() {
+			s.Hints[k] = v
+		}
+		for _, h := range u.GetReadings() {
+			s.Readings = append(s.Readings, ReadingHint{Reading: h.GetReading(), Probability: h.GetProbability(), Favours: h.GetFavours()})
+		}
+		out.Units = append(out.Units, s)
+	}
+	return out, nil
 }
 
 // ModelSummary is one model name in the store.

@@ -129,9 +129,8 @@ func (s *Server) Place(ctx context.Context, req *pb.PlaceRequest) (*pb.PlaceResp
 	return &pb.PlaceResponse{Placement: p}, nil
 }
 
-// Suggest checks the witness against the model and names the units worth checking next. No
-// ranking of units exists yet, so the list is empty: an honest "nothing to suggest", never an
-// invented order.
+// Suggest names the units worth checking next for a witness, by the model's expected
+// information gain; a witness with no readings yet gets the model's probe list.
 func (s *Server) Suggest(ctx context.Context, req *pb.SuggestRequest) (*pb.SuggestResponse, error) {
 	m, r, prob := s.resolve(req.GetModel(), "model")
 	if prob != nil {
@@ -140,31 +139,57 @@ func (s *Server) Suggest(ctx context.Context, req *pb.SuggestRequest) (*pb.Sugge
 	if p := contextProblem(ctx); p != nil {
 		return nil, p.status()
 	}
-	if req.GetMaxUnits() < 0 {
-		return nil, badRequest("negative max_units", violation("max_units", "%d; expected 0 (the default) or more", req.GetMaxUnits())).status()
+	var bad []*pb.FieldViolation
+	if req.GetWitness() == "" {
+		bad = append(bad, violation("witness", "empty siglum; name the witness or fragment"))
+	}
+	if n := req.GetMaxUnits(); n < 0 {
+		bad = append(bad, violation("max_units", "%d; expected 0 (the default, 10) or more", n))
 	}
 	if n := len(req.GetReadings()); n > s.limits.MaxUnitsPerWitness {
-		return nil, badRequest("too many readings", violation("readings", "%d readings; at most %d per witness", n, s.limits.MaxUnitsPerWitness)).status()
+		bad = append(bad, violation("readings", "%d readings; at most %d per witness", n, s.limits.MaxUnitsPerWitness))
+	}
+	if n := len(req.GetCandidates()); n > s.limits.MaxUnitsPerWitness {
+		bad = append(bad, violation("candidates", "%d candidate units; at most %d", n, s.limits.MaxUnitsPerWitness))
+	}
+	if len(bad) > 0 {
+		return nil, badRequest("witness "+siglumOrNone(req.GetWitness())+": bad suggestion request", bad...).status()
 	}
 	rs := make([]model.Reading, len(req.GetReadings()))
 	for i, x := range req.GetReadings() {
 		rs[i] = model.Reading{Unit: x.GetUnit(), Reading: x.GetReading()}
 	}
-	var noSiglum []*pb.FieldViolation
-	if req.GetWitness() == "" {
-		noSiglum = append(noSiglum, violation("witness", "empty siglum; name the witness or fragment"))
+	top := int(min(req.GetMaxUnits(), int32(len(m.Proto().GetUnits()))))
+	opt := model.SuggestOptions{Top: top}
+	if req.GetCandidates() != nil {
+		opt.Candidates = req.GetCandidates()
 	}
-	if _, _, err := m.Observe(req.GetWitness(), rs, nil); err != nil {
+	sg, err := m.Suggest(req.GetWitness(), rs, opt)
+	if err != nil {
 		var in *model.InputError
 		if errors.As(err, &in) {
-			return nil, fromInputError(in, noSiglum...).status()
+			return nil, fromInputError(in).status()
 		}
 		return nil, status.Error(codes.Internal, err.Error())
 	}
-	if noSiglum != nil {
-		return nil, badRequest("witness has no siglum", noSiglum...).status()
+	return suggestionsProto(r.String(), sg), nil
+}
+
+func suggestionsProto(ref string, sg *model.Suggestions) *pb.SuggestResponse {
+	out := &pb.SuggestResponse{Model: ref, Witness: sg.Witness, Probe: sg.Probe, EntropyBits: sg.Entropy,
+		Posterior: make([]*pb.GroupShare, 0, len(sg.Posterior)), Units: make([]*pb.UnitSuggestion, 0, len(sg.Units))}
+	for _, g := range sg.Posterior {
+		out.Posterior = append(out.Posterior, &pb.GroupShare{Group: g.Group, Share: g.Share})
 	}
-	return &pb.SuggestResponse{Model: r.String(), Suggestions: []*pb.UnitSuggestion{}}, nil
+	for _, u := range sg.Units {
+		us := &pb.UnitSuggestion{Unit: u.Unit, Gain: u.Gain, Hints: make(map[string]string, len(u.Hints)), Readings: make([]*pb.ReadingHint, 0, len(u.Hints))}
+		for _, h := range u.Hints {
+			us.Hints[h.Reading] = h.Favours
+			us.Readings = append(us.Readings, &pb.ReadingHint{Reading: h.Reading, Probability: h.Probability, Favours: h.Favours})
+		}
+		out.Units = append(out.Units, us)
+	}
+	return out
 }
 
 // streamSlot is one witness of a stream on its way through the placing workers.

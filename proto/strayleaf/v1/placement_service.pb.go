@@ -645,12 +645,16 @@ func (x *FieldViolation) GetDescription() string {
 }
 
 type SuggestRequest struct {
-	state    protoimpl.MessageState `protogen:"open.v1"`
-	Model    string                 `protobuf:"bytes,1,opt,name=model,proto3" json:"model,omitempty"`
-	Witness  string                 `protobuf:"bytes,2,opt,name=witness,proto3" json:"witness,omitempty"`
-	Readings []*WitnessReading      `protobuf:"bytes,3,rep,name=readings,proto3" json:"readings,omitempty"`
-	// max_units caps the number of suggestions (0: the server's default).
-	MaxUnits      int32 `protobuf:"varint,4,opt,name=max_units,json=maxUnits,proto3" json:"max_units,omitempty"`
+	state   protoimpl.MessageState `protogen:"open.v1"`
+	Model   string                 `protobuf:"bytes,1,opt,name=model,proto3" json:"model,omitempty"`
+	Witness string                 `protobuf:"bytes,2,opt,name=witness,proto3" json:"witness,omitempty"`
+	// readings are the units checked so far; with none, the answer is the model's probe list.
+	Readings []*WitnessReading `protobuf:"bytes,3,rep,name=readings,proto3" json:"readings,omitempty"`
+	// max_units caps the number of suggestions (0: 10).
+	MaxUnits int32 `protobuf:"varint,4,opt,name=max_units,json=maxUnits,proto3" json:"max_units,omitempty"`
+	// candidates, if given, are the unit ids that can still be checked (the text a leaf
+	// preserves, say); other units are never suggested.
+	Candidates    []string `protobuf:"bytes,5,rep,name=candidates,proto3" json:"candidates,omitempty"`
 	unknownFields protoimpl.UnknownFields
 	sizeCache     protoimpl.SizeCache
 }
@@ -713,12 +717,28 @@ func (x *SuggestRequest) GetMaxUnits() int32 {
 	return 0
 }
 
+func (x *SuggestRequest) GetCandidates() []string {
+	if x != nil {
+		return x.Candidates
+	}
+	return nil
+}
+
+// SuggestResponse has the fields of `strayleaf suggest --json`.
 type SuggestResponse struct {
 	state protoimpl.MessageState `protogen:"open.v1"`
 	// model is the exact model version used, "name@version".
-	Model string `protobuf:"bytes,1,opt,name=model,proto3" json:"model,omitempty"`
-	// suggestions are the units worth checking next, best first.
-	Suggestions   []*UnitSuggestion `protobuf:"bytes,2,rep,name=suggestions,proto3" json:"suggestions,omitempty"`
+	Model   string `protobuf:"bytes,1,opt,name=model,proto3" json:"model,omitempty"`
+	Witness string `protobuf:"bytes,2,opt,name=witness,proto3" json:"witness,omitempty"`
+	// probe is true when nothing was checked yet and units is the model's probe list.
+	Probe bool `protobuf:"varint,3,opt,name=probe,proto3" json:"probe,omitempty"`
+	// posterior is the distribution over the groups given the readings checked so far, most
+	// probable first.
+	Posterior []*GroupShare `protobuf:"bytes,4,rep,name=posterior,proto3" json:"posterior,omitempty"`
+	// entropy_bits is the entropy of the posterior, in bits.
+	EntropyBits float64 `protobuf:"fixed64,5,opt,name=entropy_bits,json=entropyBits,proto3" json:"entropy_bits,omitempty"`
+	// units are the units worth checking next, best first.
+	Units         []*UnitSuggestion `protobuf:"bytes,6,rep,name=units,proto3" json:"units,omitempty"`
 	unknownFields protoimpl.UnknownFields
 	sizeCache     protoimpl.SizeCache
 }
@@ -760,9 +780,37 @@ func (x *SuggestResponse) GetModel() string {
 	return ""
 }
 
-func (x *SuggestResponse) GetSuggestions() []*UnitSuggestion {
+func (x *SuggestResponse) GetWitness() string {
 	if x != nil {
-		return x.Suggestions
+		return x.Witness
+	}
+	return ""
+}
+
+func (x *SuggestResponse) GetProbe() bool {
+	if x != nil {
+		return x.Probe
+	}
+	return false
+}
+
+func (x *SuggestResponse) GetPosterior() []*GroupShare {
+	if x != nil {
+		return x.Posterior
+	}
+	return nil
+}
+
+func (x *SuggestResponse) GetEntropyBits() float64 {
+	if x != nil {
+		return x.EntropyBits
+	}
+	return 0
+}
+
+func (x *SuggestResponse) GetUnits() []*UnitSuggestion {
+	if x != nil {
+		return x.Units
 	}
 	return nil
 }
@@ -771,8 +819,12 @@ func (x *SuggestResponse) GetSuggestions() []*UnitSuggestion {
 type UnitSuggestion struct {
 	state protoimpl.MessageState `protogen:"open.v1"`
 	Unit  string                 `protobuf:"bytes,1,opt,name=unit,proto3" json:"unit,omitempty"`
-	// gain is how much checking the unit is expected to settle the placement, in [0, 1].
-	Gain          float64 `protobuf:"fixed64,2,opt,name=gain,proto3" json:"gain,omitempty"`
+	// gain is the expected reduction of the uncertainty about the group, in bits.
+	Gain float64 `protobuf:"fixed64,2,opt,name=gain,proto3" json:"gain,omitempty"`
+	// hints map each likely reading of the unit to the group it would favour.
+	Hints map[string]string `protobuf:"bytes,3,rep,name=hints,proto3" json:"hints,omitempty" protobuf_key:"bytes,1,opt,name=key" protobuf_val:"bytes,2,opt,name=value"`
+	// readings are the likely readings with their predicted probabilities, most probable first.
+	Readings      []*ReadingHint `protobuf:"bytes,4,rep,name=readings,proto3" json:"readings,omitempty"`
 	unknownFields protoimpl.UnknownFields
 	sizeCache     protoimpl.SizeCache
 }
@@ -819,6 +871,82 @@ func (x *UnitSuggestion) GetGain() float64 {
 		return x.Gain
 	}
 	return 0
+}
+
+func (x *UnitSuggestion) GetHints() map[string]string {
+	if x != nil {
+		return x.Hints
+	}
+	return nil
+}
+
+func (x *UnitSuggestion) GetReadings() []*ReadingHint {
+	if x != nil {
+		return x.Readings
+	}
+	return nil
+}
+
+// ReadingHint is a likely reading of a suggested unit.
+type ReadingHint struct {
+	state       protoimpl.MessageState `protogen:"open.v1"`
+	Reading     string                 `protobuf:"bytes,1,opt,name=reading,proto3" json:"reading,omitempty"`
+	Probability float64                `protobuf:"fixed64,2,opt,name=probability,proto3" json:"probability,omitempty"`
+	// favours is the group most probable once the reading is seen.
+	Favours       string `protobuf:"bytes,3,opt,name=favours,proto3" json:"favours,omitempty"`
+	unknownFields protoimpl.UnknownFields
+	sizeCache     protoimpl.SizeCache
+}
+
+func (x *ReadingHint) Reset() {
+	*x = ReadingHint{}
+	mi := &file_strayleaf_v1_placement_service_proto_msgTypes[12]
+	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+	ms.StoreMessageInfo(mi)
+}
+
+func (x *ReadingHint) String() string {
+	return protoimpl.X.MessageStringOf(x)
+}
+
+func (*ReadingHint) ProtoMessage() {}
+
+func (x *ReadingHint) ProtoReflect() protoreflect.Message {
+	mi := &file_strayleaf_v1_placement_service_proto_msgTypes[12]
+	if x != nil {
+		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+		if ms.LoadMessageInfo() == nil {
+			ms.StoreMessageInfo(mi)
+		}
+		return ms
+	}
+	return mi.MessageOf(x)
+}
+
+// Deprecated: Use ReadingHint.ProtoReflect.Descriptor instead.
+func (*ReadingHint) Descriptor() ([]byte, []int) {
+	return file_strayleaf_v1_placement_service_proto_rawDescGZIP(), []int{12}
+}
+
+func (x *ReadingHint) GetReading() string {
+	if x != nil {
+		return x.Reading
+	}
+	return ""
+}
+
+func (x *ReadingHint) GetProbability() float64 {
+	if x != nil {
+		return x.Probability
+	}
+	return 0
+}
+
+func (x *ReadingHint) GetFavours() string {
+	if x != nil {
+		return x.Favours
+	}
+	return ""
 }
 
 var File_strayleaf_v1_placement_service_proto protoreflect.FileDescriptor
@@ -871,18 +999,35 @@ const file_strayleaf_v1_placement_service_proto_rawDesc = "" +
 	"\x10field_violations\x18\x03 \x03(\v2\x1c.strayleaf.v1.FieldViolationR\x0ffieldViolations\"H\n" +
 	"\x0eFieldViolation\x12\x14\n" +
 	"\x05field\x18\x01 \x01(\tR\x05field\x12 \n" +
-	"\vdescription\x18\x02 \x01(\tR\vdescription\"\x97\x01\n" +
+	"\vdescription\x18\x02 \x01(\tR\vdescription\"\xb7\x01\n" +
 	"\x0eSuggestRequest\x12\x14\n" +
 	"\x05model\x18\x01 \x01(\tR\x05model\x12\x18\n" +
 	"\awitness\x18\x02 \x01(\tR\awitness\x128\n" +
 	"\breadings\x18\x03 \x03(\v2\x1c.strayleaf.v1.WitnessReadingR\breadings\x12\x1b\n" +
-	"\tmax_units\x18\x04 \x01(\x05R\bmaxUnits\"g\n" +
+	"\tmax_units\x18\x04 \x01(\x05R\bmaxUnits\x12\x1e\n" +
+	"\n" +
+	"candidates\x18\x05 \x03(\tR\n" +
+	"candidates\"\xe6\x01\n" +
 	"\x0fSuggestResponse\x12\x14\n" +
-	"\x05model\x18\x01 \x01(\tR\x05model\x12>\n" +
-	"\vsuggestions\x18\x02 \x03(\v2\x1c.strayleaf.v1.UnitSuggestionR\vsuggestions\"8\n" +
+	"\x05model\x18\x01 \x01(\tR\x05model\x12\x18\n" +
+	"\awitness\x18\x02 \x01(\tR\awitness\x12\x14\n" +
+	"\x05probe\x18\x03 \x01(\bR\x05probe\x126\n" +
+	"\tposterior\x18\x04 \x03(\v2\x18.strayleaf.v1.GroupShareR\tposterior\x12!\n" +
+	"\fentropy_bits\x18\x05 \x01(\x01R\ventropyBits\x122\n" +
+	"\x05units\x18\x06 \x03(\v2\x1c.strayleaf.v1.UnitSuggestionR\x05units\"\xe8\x01\n" +
 	"\x0eUnitSuggestion\x12\x12\n" +
 	"\x04unit\x18\x01 \x01(\tR\x04unit\x12\x12\n" +
-	"\x04gain\x18\x02 \x01(\x01R\x04gain2\xf4\x01\n" +
+	"\x04gain\x18\x02 \x01(\x01R\x04gain\x12=\n" +
+	"\x05hints\x18\x03 \x03(\v2'.strayleaf.v1.UnitSuggestion.HintsEntryR\x05hints\x125\n" +
+	"\breadings\x18\x04 \x03(\v2\x19.strayleaf.v1.ReadingHintR\breadings\x1a8\n" +
+	"\n" +
+	"HintsEntry\x12\x10\n" +
+	"\x03key\x18\x01 \x01(\tR\x03key\x12\x14\n" +
+	"\x05value\x18\x02 \x01(\tR\x05value:\x028\x01\"c\n" +
+	"\vReadingHint\x12\x18\n" +
+	"\areading\x18\x01 \x01(\tR\areading\x12 \n" +
+	"\vprobability\x18\x02 \x01(\x01R\vprobability\x12\x18\n" +
+	"\afavours\x18\x03 \x01(\tR\afavours2\xf4\x01\n" +
 	"\x10PlacementService\x12@\n" +
 	"\x05Place\x12\x1a.strayleaf.v1.PlaceRequest\x1a\x1b.strayleaf.v1.PlaceResponse\x12V\n" +
 	"\vPlaceStream\x12 .strayleaf.v1.PlaceStreamRequest\x1a!.strayleaf.v1.PlaceStreamResponse(\x010\x01\x12F\n" +
@@ -900,7 +1045,7 @@ func file_strayleaf_v1_placement_service_proto_rawDescGZIP() []byte {
 	return file_strayleaf_v1_placement_service_proto_rawDescData
 }
 
-var file_strayleaf_v1_placement_service_proto_msgTypes = make([]protoimpl.MessageInfo, 12)
+var file_strayleaf_v1_placement_service_proto_msgTypes = make([]protoimpl.MessageInfo, 14)
 var file_strayleaf_v1_placement_service_proto_goTypes = []any{
 	(*WitnessReading)(nil),      // 0: strayleaf.v1.WitnessReading
 	(*PlaceRequest)(nil),        // 1: strayleaf.v1.PlaceRequest
@@ -914,6 +1059,8 @@ var file_strayleaf_v1_placement_service_proto_goTypes = []any{
 	(*SuggestRequest)(nil),      // 9: strayleaf.v1.SuggestRequest
 	(*SuggestResponse)(nil),     // 10: strayleaf.v1.SuggestResponse
 	(*UnitSuggestion)(nil),      // 11: strayleaf.v1.UnitSuggestion
+	(*ReadingHint)(nil),         // 12: strayleaf.v1.ReadingHint
+	nil,                         // 13: strayleaf.v1.UnitSuggestion.HintsEntry
 }
 var file_strayleaf_v1_placement_service_proto_depIdxs = []int32{
 	0,  // 0: strayleaf.v1.PlaceRequest.readings:type_name -> strayleaf.v1.WitnessReading
@@ -924,18 +1071,21 @@ var file_strayleaf_v1_placement_service_proto_depIdxs = []int32{
 	7,  // 5: strayleaf.v1.PlaceStreamResponse.error:type_name -> strayleaf.v1.WitnessError
 	8,  // 6: strayleaf.v1.WitnessError.field_violations:type_name -> strayleaf.v1.FieldViolation
 	0,  // 7: strayleaf.v1.SuggestRequest.readings:type_name -> strayleaf.v1.WitnessReading
-	11, // 8: strayleaf.v1.SuggestResponse.suggestions:type_name -> strayleaf.v1.UnitSuggestion
-	1,  // 9: strayleaf.v1.PlacementService.Place:input_type -> strayleaf.v1.PlaceRequest
-	5,  // 10: strayleaf.v1.PlacementService.PlaceStream:input_type -> strayleaf.v1.PlaceStreamRequest
-	9,  // 11: strayleaf.v1.PlacementService.Suggest:input_type -> strayleaf.v1.SuggestRequest
-	2,  // 12: strayleaf.v1.PlacementService.Place:output_type -> strayleaf.v1.PlaceResponse
-	6,  // 13: strayleaf.v1.PlacementService.PlaceStream:output_type -> strayleaf.v1.PlaceStreamResponse
-	10, // 14: strayleaf.v1.PlacementService.Suggest:output_type -> strayleaf.v1.SuggestResponse
-	12, // [12:15] is the sub-list for method output_type
-	9,  // [9:12] is the sub-list for method input_type
-	9,  // [9:9] is the sub-list for extension type_name
-	9,  // [9:9] is the sub-list for extension extendee
-	0,  // [0:9] is the sub-list for field type_name
+	4,  // 8: strayleaf.v1.SuggestResponse.posterior:type_name -> strayleaf.v1.GroupShare
+	11, // 9: strayleaf.v1.SuggestResponse.units:type_name -> strayleaf.v1.UnitSuggestion
+	13, // 10: strayleaf.v1.UnitSuggestion.hints:type_name -> strayleaf.v1.UnitSuggestion.HintsEntry
+	12, // 11: strayleaf.v1.UnitSuggestion.readings:type_name -> strayleaf.v1.ReadingHint
+	1,  // 12: strayleaf.v1.PlacementService.Place:input_type -> strayleaf.v1.PlaceRequest
+	5,  // 13: strayleaf.v1.PlacementService.PlaceStream:input_type -> strayleaf.v1.PlaceStreamRequest
+	9,  // 14: strayleaf.v1.PlacementService.Suggest:input_type -> strayleaf.v1.SuggestRequest
+	2,  // 15: strayleaf.v1.PlacementService.Place:output_type -> strayleaf.v1.PlaceResponse
+	6,  // 16: strayleaf.v1.PlacementService.PlaceStream:output_type -> strayleaf.v1.PlaceStreamResponse
+	10, // 17: strayleaf.v1.PlacementService.Suggest:output_type -> strayleaf.v1.SuggestResponse
+	15, // [15:18] is the sub-list for method output_type
+	12, // [12:15] is the sub-list for method input_type
+	12, // [12:12] is the sub-list for extension type_name
+	12, // [12:12] is the sub-list for extension extendee
+	0,  // [0:12] is the sub-list for field type_name
 }
 
 func init() { file_strayleaf_v1_placement_service_proto_init() }
@@ -953,7 +1103,7 @@ func file_strayleaf_v1_placement_service_proto_init() {
 			GoPackagePath: reflect.TypeOf(x{}).PkgPath(),
 			RawDescriptor: unsafe.Slice(unsafe.StringData(file_strayleaf_v1_placement_service_proto_rawDesc), len(file_strayleaf_v1_placement_service_proto_rawDesc)),
 			NumEnums:      0,
-			NumMessages:   12,
+			NumMessages:   14,
 			NumExtensions: 0,
 			NumServices:   1,
 		},

@@ -42,8 +42,9 @@ type PlacementServiceClient interface {
 	// and the stream goes on. Each model reference is resolved once, on first use in the stream,
 	// so all witnesses of one stream that name the same reference are placed by the same version.
 	PlaceStream(ctx context.Context, opts ...grpc.CallOption) (grpc.BidiStreamingClient[PlaceStreamRequest, PlaceStreamResponse], error)
-	// Suggest names the units worth checking next for a partial witness, best first. It answers
-	// an empty list until the model carries the information to rank units.
+	// Suggest names the units worth checking next for a partial witness, best first, by the
+	// expected information gain about its group; with no readings checked yet it answers the
+	// model's probe list.
 	Suggest(ctx context.Context, in *SuggestRequest, opts ...grpc.CallOption) (*SuggestResponse, error)
 }
 
@@ -106,8 +107,9 @@ type PlacementServiceServer interface {
 	// and the stream goes on. Each model reference is resolved once, on first use in the stream,
 	// so all witnesses of one stream that name the same reference are placed by the same version.
 	PlaceStream(grpc.BidiStreamingServer[PlaceStreamRequest, PlaceStreamResponse]) error
-	// Suggest names the units worth checking next for a partial witness, best first. It answers
-	// an empty list until the model carries the information to rank units.
+	// Suggest names the units worth checking next for a partial witness, best first, by the
+	// expected information gain about its group; with no readings checked yet it answers the
+	// model's probe list.
 	Suggest(context.Context, *SuggestRequest) (*SuggestResponse, error)
 	mustEmbedUnimplementedPlacementServiceServer()
 }
