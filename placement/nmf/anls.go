@@ -14,8 +14,10 @@ type run struct {
 	off     []int // off[i]: start of row i of a packed upper triangle, minus i
 	workers int
 
-	W  []float64 // m x k row-major: row r is W_r
-	Ht []float64 // n x k row-major: row j is h_j, column j of H
+	W []float64 // m x k row-major: row r is W_r
+	// ws0 is diag(rowConst) W when every row of the data has equal entries (Problem.constRows).
+	ws0 []float64
+	Ht  []float64 // n x k row-major: row j is h_j, column j of H
 
 	sc    []float64 // per class c: packed S_c = sum_{r in c} W_r W_r^T
 	gfull []float64 // packed W^T W
@@ -57,6 +59,9 @@ func newRun(p *Problem, k, workers int) *run {
 	}
 	for i := 0; i < k; i++ {
 		r.off[i] = i*k - i*(i-1)/2 - i
+	}
+	if p.constRows {
+		r.ws0 = make([]float64, p.m*k)
 	}
 	r.cols = make([]int32, p.n)
 	for j := range r.cols {
@@ -121,6 +126,14 @@ func (r *run) stepH() (float64, error) {
 	if err != nil {
 		return 0, err
 	}
+	if p.constRows {
+		for row := 0; row < p.m; row++ {
+			v := p.rowConst[row]
+			for i, w := range r.W[row*k : row*k+k] {
+				r.ws0[row*k+i] = v * w
+			}
+		}
+	}
 	clear(r.gfull)
 	for c := range p.classes {
 		s := r.sc[c*kp : (c+1)*kp]
@@ -139,7 +152,11 @@ func (r *run) stepH() (float64, error) {
 		cv := ws.c
 		xm := p.xm
 		lo, hi := xm.colStart[j], xm.colStart[j+1]
-		gather(cv, r.W, k, xm.colRow[lo:hi], xm.colVal[lo:hi])
+		if p.constRows {
+			sumRows(cv, r.ws0, k, xm.colRow[lo:hi])
+		} else {
+			gather(cv, r.W, k, xm.colRow[lo:hi], xm.colVal[lo:hi])
+		}
 		h := r.Ht[j*k : j*k+k]
 		r.fcol[j] = quad(ws.g, cv, h, p.colSq[j])
 		if p.colObserved[j] == 0 {
@@ -204,7 +221,14 @@ func (r *run) stepW() (float64, error) {
 		cv := ws.c
 		xm := p.xm
 		lo, hi := xm.rowStart[row], xm.rowStart[row+1]
-		gather(cv, r.Ht, k, xm.rowCol[lo:hi], xm.rowVal[lo:hi])
+		if v := p.rowConst[row]; v != 0 {
+			sumRows(cv, r.Ht, k, xm.rowCol[lo:hi])
+			for i := range cv {
+				cv[i] *= v
+			}
+		} else {
+			gather(cv, r.Ht, k, xm.rowCol[lo:hi], xm.rowVal[lo:hi])
+		}
 		if err := ws.solver.SolveGram(g, cv, ws.x); err != nil {
 			return fmt.Errorf("solving row %d of W: %w", row, err)
 		}

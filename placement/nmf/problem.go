@@ -23,13 +23,19 @@ import (
 // Each column then combines classes, and each class combines columns, whichever way is shorter:
 // subtracting the few unobserved ones from the full Gram matrix, or adding up the observed ones.
 type Problem struct {
-	m, n     int
-	xm       *sparse   // M .* X
-	colSq    []float64 // ||xm_j||^2
-	rowSq    []float64 // ||xm_r||^2
-	total    float64   // ||XM||_F^2
-	observed int       // number of observed cells
-	mask     []byte    // mask[r*n+j] = 1 if cell (r, j) is observed, row-major
+	m, n  int
+	xm    *sparse   // M .* X
+	colSq []float64 // ||xm_j||^2
+	rowSq []float64 // ||xm_r||^2
+	// rowConst[r] is the common value of row r's entries if they are all equal (as in IDF-weighted
+	// reading rows), else 0; the W step then sums the rows of H and scales once.
+	rowConst []float64
+	// constRows reports that every row's entries are equal (rowConst[r] != 0 for every row with
+	// an entry): then c_j = W^T xm_j is a plain sum of rows of diag(rowConst) W.
+	constRows bool
+	total     float64 // ||XM||_F^2
+	observed  int     // number of observed cells
+	mask      []byte  // mask[r*n+j] = 1 if cell (r, j) is observed, row-major
 
 	rowClass []int32 // class of each row
 	classes  []maskClass
@@ -121,6 +127,22 @@ func NewProblem(X, M *mat.Dense) (*Problem, error) {
 		return nil
 	})
 	p.xm = newSparseRows(m, n, rowStart, rowCol, rowVal)
+	p.rowConst = make([]float64, m)
+	p.constRows = true
+	for r := 0; r < m; r++ {
+		vals := rowVal[rowStart[r]:rowStart[r+1]]
+		if len(vals) == 0 {
+			continue
+		}
+		p.rowConst[r] = vals[0]
+		for _, v := range vals {
+			if v != vals[0] {
+				p.rowConst[r] = 0
+				p.constRows = false
+				break
+			}
+		}
+	}
 	for j := 0; j < n; j++ {
 		for _, v := range p.xm.colVal[p.xm.colStart[j]:p.xm.colStart[j+1]] {
 			p.colSq[j] += v * v
