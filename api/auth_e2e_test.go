@@ -58,6 +58,10 @@ func TestAuthRolesOverGRPCAndREST(t *testing.T) {
 			"POST", "/v1/models/other/versions", map[string]any{"bundle": bundle}, 200},
 		{"alias", auth.RolePublish, func(c *client.Client) error { _, err := c.SetAlias(ctx, "demo", "stable", 1); return err },
 			"PUT", "/v1/models/demo/aliases/stable", map[string]any{"version": 1}, 200},
+		{"history", auth.RolePlace, func(c *client.Client) error { _, err := c.History(ctx, ""); return err }, "GET", "/v1/history", nil, 200},
+		// Removing an alias that does not exist: NotFound once past authorisation.
+		{"unalias", auth.RolePublish, func(c *client.Client) error { return c.RemoveAlias(ctx, "demo", "nosuch") },
+			"DELETE", "/v1/models/demo/aliases/nosuch", nil, 404},
 		{"export", auth.RoleAdmin, func(c *client.Client) error { _, _, err := c.ExportModel(ctx, "demo@1"); return err },
 			"GET", "/v1/models/demo@1/bundle", nil, 200},
 		// Deleting a version that does not exist: an allowed caller gets NotFound, which shows
@@ -80,7 +84,7 @@ func TestAuthRolesOverGRPCAndREST(t *testing.T) {
 				wantCode, wantHTTP = codes.Unauthenticated, 401
 			case h.role < cl.need:
 				wantCode, wantHTTP = codes.PermissionDenied, 403
-			case cl.name == "delete":
+			case cl.name == "delete" || cl.name == "unalias":
 				wantCode = codes.NotFound
 			}
 			if err := cl.grpc(c); client.Code(err) != wantCode {

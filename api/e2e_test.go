@@ -38,9 +38,18 @@ func TestPublishListPlaceOverGRPCAndREST(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	want := []client.ModelSummary{{Name: "wardens", Versions: []int{1}, LatestVersion: 1, Aliases: map[string]int{"current": 1}}}
-	if !reflect.DeepEqual(list, want) {
-		t.Fatalf("ListModels = %+v; want %+v", list, want)
+	if len(list) != 1 || list[0].Name != "wardens" || !reflect.DeepEqual(list[0].Versions, []int{1}) || list[0].LatestVersion != 1 ||
+		!reflect.DeepEqual(list[0].Aliases, map[string]int{"current": 1}) {
+		t.Fatalf("ListModels = %+v", list)
+	}
+	bsum := sha256.Sum256(bundle)
+	if vd := list[0].VersionDetails; len(vd) != 1 || vd[0].Version != 1 || vd[0].PublishedBy != "editor" || vd[0].Note != "first cut" ||
+		vd[0].BundleSHA256 != hex.EncodeToString(bsum[:]) || vd[0].BundleBytes != len(bundle) || vd[0].Summary.GroupCount != m.K() ||
+		vd[0].Summary.UnitCount != len(m.Proto().GetUnits()) || vd[0].PublishTime.IsZero() {
+		t.Errorf("version details %+v", vd)
+	}
+	if ad := list[0].AliasDetails; len(ad) != 1 || ad[0].Alias != "current" || ad[0].Version != 1 || ad[0].SetBy != "editor" {
+		t.Errorf("alias details %+v", ad)
 	}
 	var restList struct {
 		Models []struct {
@@ -171,6 +180,45 @@ func TestPublishListPlaceOverGRPCAndREST(t *testing.T) {
 	if p, err := c.Place(ctx, "wardens", frags[0].Siglum, frags[0].Readings); err != nil || p.Model != "wardens@2" {
 		t.Fatalf("after moving current: %v %v", p, err)
 	}
+	// Remove an alias over gRPC and REST; the history records every change with its author.
+	if err := pub.RemoveAlias(ctx, "wardens", "candidate"); err != nil {
+		t.Fatal(err)
+	}
+	if err := pub.RemoveAlias(ctx, "wardens", "candidate"); client.Code(err) != codes.NotFound {
+		t.Errorf("removing a removed alias: %v", err)
+	}
+	if _, err := pub.SetAlias(ctx, "wardens", "stable", 1); err != nil {
+		t.Fatal(err)
+	}
+	if resp := td.rest(t, "DELETE", "/v1/models/wardens/aliases/stable", td.tokens.publish, nil); resp.status != 200 {
+		t.Fatalf("REST remove alias: %d %s", resp.status, resp.body)
+	}
+	hist, err := c.History(ctx, "wardens")
+	if err != nil {
+		t.Fatal(err)
+	}
+	var kinds []string
+	for _, e := range hist {
+		kinds = append(kinds, e.Kind)
+		if e.By != "editor" {
+			t.Errorf("event %+v not recorded as by editor", e)
+		}
+	}
+	if want := []string{"publish", "alias", "publish", "alias", "alias", "unalias", "alias", "unalias"}; !reflect.DeepEqual(kinds, want) {
+		t.Errorf("history kinds %v; want %v", kinds, want)
+	}
+	resp = td.rest(t, "GET", "/v1/history?name=wardens", td.tokens.place, nil)
+	var restHist struct {
+		Events []struct {
+			Kind string `json:"kind"`
+			By   string `json:"by"`
+		} `json:"events"`
+	}
+	resp.decode(t, &restHist)
+	if resp.status != 200 || len(restHist.Events) != len(hist) {
+		t.Errorf("REST history: %d %s", resp.status, resp.body)
+	}
+
 	admin := td.client(t, td.tokens.admin)
 	b, ref, err := admin.ExportModel(ctx, "wardens@1")
 	if err != nil || ref.String() != "wardens@1" || string(b) != string(bundle) {

@@ -7,6 +7,7 @@ import (
 	"errors"
 	"fmt"
 	"io"
+	"time"
 
 	"google.golang.org/grpc/codes"
 
@@ -226,6 +227,52 @@ type ModelSummary struct {
 	Versions      []int          `json:"versions"`
 	LatestVersion int            `json:"latest_version"`
 	Aliases       map[string]int `json:"aliases"`
+	// VersionDetails are the versions' records, ascending; AliasDetails who set each alias when.
+	VersionDetails []VersionInfo `json:"version_details"`
+	AliasDetails   []AliasInfo   `json:"alias_details"`
+}
+
+// VersionInfo is the store's record of one published version.
+type VersionInfo struct {
+	Version     int       `json:"version"`
+	PublishTime time.Time `json:"publish_time"`
+	PublishedBy string    `json:"published_by"`
+	Note        string    `json:"note"`
+	// BundleSHA256 is the hex SHA-256 of the bundle bytes.
+	BundleSHA256 string         `json:"bundle_sha256"`
+	BundleBytes  int            `json:"bundle_bytes"`
+	Summary      VersionSummary `json:"summary"`
+}
+
+// VersionSummary is the training summary recorded with a version.
+type VersionSummary struct {
+	FormatVersion        int     `json:"format_version"`
+	GroupCount           int     `json:"group_count"`
+	UnitCount            int     `json:"unit_count"`
+	ProfileReadingCount  int     `json:"profile_reading_count"`
+	TrainingWitnessCount int     `json:"training_witness_count"`
+	Objective            float64 `json:"objective"`
+	RelativeError        float64 `json:"relative_error"`
+	CollationSHA256      string  `json:"collation_sha256"`
+	Calibrated           bool    `json:"calibrated"`
+}
+
+// AliasInfo says where an alias points, and who set it when.
+type AliasInfo struct {
+	Alias   string    `json:"alias"`
+	Version int       `json:"version"`
+	SetBy   string    `json:"set_by"`
+	SetTime time.Time `json:"set_time"`
+}
+
+// VersionInfoFrom converts the wire form of a version record.
+func VersionInfoFrom(v *pb.ModelVersionInfo) VersionInfo {
+	sm := v.GetSummary()
+	return VersionInfo{Version: int(v.GetVersion()), PublishTime: v.GetPublishTime().AsTime(), PublishedBy: v.GetPublishedBy(),
+		Note: v.GetNote(), BundleSHA256: v.GetBundleSha256(), BundleBytes: int(v.GetBundleBytes()),
+		Summary: VersionSummary{FormatVersion: int(sm.GetFormatVersion()), GroupCount: int(sm.GetGroupCount()), UnitCount: int(sm.GetUnitCount()),
+			ProfileReadingCount: int(sm.GetProfileReadingCount()), TrainingWitnessCount: int(sm.GetTrainingWitnessCount()),
+			Objective: sm.GetObjective(), RelativeError: sm.GetRelativeError(), CollationSHA256: sm.GetCollationSha256(), Calibrated: sm.GetCalibrated()}}
 }
 
 // ListModels lists the models of the server's store by name.
@@ -242,6 +289,12 @@ func (c *Client) ListModels(ctx context.Context) ([]ModelSummary, error) {
 		}
 		for a, v := range m.GetAliases() {
 			s.Aliases[a] = int(v)
+		}
+		for _, v := range m.GetVersionDetails() {
+			s.VersionDetails = append(s.VersionDetails, VersionInfoFrom(v))
+		}
+		for _, a := range m.GetAliasDetails() {
+			s.AliasDetails = append(s.AliasDetails, AliasInfo{Alias: a.GetAlias(), Version: int(a.GetVersion()), SetBy: a.GetSetBy(), SetTime: a.GetSetTime().AsTime()})
 		}
 		out = append(out, s)
 	}
@@ -275,6 +328,39 @@ func (c *Client) SetAlias(ctx context.Context, name, alias string, version int) 
 		return Ref{}, c.wrap(fmt.Sprintf("set %s@%s", name, alias), err)
 	}
 	return ParseRef(resp.GetModel())
+}
+
+// RemoveAlias removes name@alias. It needs a publish token.
+func (c *Client) RemoveAlias(ctx context.Context, name, alias string) error {
+	_, err := c.models.RemoveAlias(ctx, &pb.RemoveAliasRequest{Name: name, Alias: alias})
+	return c.wrap(fmt.Sprintf("remove %s@%s", name, alias), err)
+}
+
+// Event is one entry of the store's history.
+type Event struct {
+	Seq     uint64    `json:"seq"`
+	Time    time.Time `json:"time"`
+	Kind    string    `json:"kind"` // publish, import, alias, unalias or delete
+	Name    string    `json:"name"`
+	Version int       `json:"version"`
+	Alias   string    `json:"alias,omitempty"`
+	From    int       `json:"from,omitempty"`
+	By      string    `json:"by"`
+	Detail  string    `json:"detail"`
+}
+
+// History lists the store's history of model name ("" for all models), oldest first.
+func (c *Client) History(ctx context.Context, name string) ([]Event, error) {
+	resp, err := c.models.ListHistory(ctx, &pb.ListHistoryRequest{Name: name})
+	if err != nil {
+		return nil, c.wrap("history", err)
+	}
+	out := make([]Event, 0, len(resp.GetEvents()))
+	for _, e := range resp.GetEvents() {
+		out = append(out, Event{Seq: uint64(e.GetSeq()), Time: e.GetTime().AsTime(), Kind: e.GetKind(), Name: e.GetName(), Version: int(e.GetVersion()),
+			Alias: e.GetAlias(), From: int(e.GetFromVersion()), By: e.GetBy(), Detail: e.GetDetail()})
+	}
+	return out, nil
 }
 
 // DeleteModelVersion removes name@version, which no alias may point at. It needs an admin

@@ -31,14 +31,25 @@ func (s *Server) ListModels(ctx context.Context, _ *pb.ListModelsRequest) (*pb.L
 		for a, v := range mi.Aliases {
 			ms.Aliases[a] = int32(v)
 		}
+		for _, v := range mi.Versions {
+			ms.VersionDetails = append(ms.VersionDetails, versionInfoProto(v))
+		}
+		slices.SortFunc(ms.VersionDetails, func(a, b *pb.ModelVersionInfo) int { return int(a.Version - b.Version) })
+		for _, a := range mi.AliasDetails {
+			ms.AliasDetails = append(ms.AliasDetails, &pb.AliasInfo{Alias: a.Alias, Version: int32(a.Version), SetBy: a.By, SetTime: timestamppb.New(a.Set)})
+		}
 		out.Models = append(out.Models, ms)
 	}
 	return out, nil
 }
 
 func versionInfoProto(v modelstore.VersionInfo) *pb.ModelVersionInfo {
+	sm := v.Summary
 	return &pb.ModelVersionInfo{Version: int32(v.Version), PublishTime: timestamppb.New(v.Created), PublishedBy: v.By,
-		Note: v.Note, BundleSha256: v.SHA256, BundleBytes: int32(v.Size)}
+		Note: v.Note, BundleSha256: v.SHA256, BundleBytes: int32(v.Size),
+		Summary: &pb.VersionSummary{FormatVersion: int32(sm.FormatVersion), GroupCount: int32(sm.Groups), UnitCount: int32(sm.Units),
+			ProfileReadingCount: int32(sm.Rows), TrainingWitnessCount: int32(sm.TrainingWitnesses), Objective: sm.Objective,
+			RelativeError: sm.RelativeError, CollationSha256: sm.CollationSHA256, Calibrated: sm.Calibrated}}
 }
 
 // GetModel describes the version a reference resolves to.
@@ -127,6 +138,30 @@ func (s *Server) SetAlias(ctx context.Context, req *pb.SetAliasRequest) (*pb.Set
 	r := modelstore.Ref{Name: req.GetName(), Version: int(req.GetVersion())}
 	s.log.Info("alias set", "alias", req.GetName()+"@"+req.GetAlias(), "model", r.String(), "by", by)
 	return &pb.SetAliasResponse{Model: r.String()}, nil
+}
+
+// RemoveAlias removes an alias.
+func (s *Server) RemoveAlias(ctx context.Context, req *pb.RemoveAliasRequest) (*pb.RemoveAliasResponse, error) {
+	by := callerName(ctx)
+	if err := s.store.RemoveAlias(req.GetName(), req.GetAlias(), by); err != nil {
+		return nil, storeProblem(err, "alias").status()
+	}
+	s.log.Info("alias removed", "alias", req.GetName()+"@"+req.GetAlias(), "by", by)
+	return &pb.RemoveAliasResponse{}, nil
+}
+
+// ListHistory lists the store's history, of one model or of all.
+func (s *Server) ListHistory(ctx context.Context, req *pb.ListHistoryRequest) (*pb.ListHistoryResponse, error) {
+	evs, err := s.store.History(req.GetName())
+	if err != nil {
+		return nil, storeProblem(err, "name").status()
+	}
+	out := &pb.ListHistoryResponse{Events: make([]*pb.HistoryEvent, 0, len(evs))}
+	for _, e := range evs {
+		out.Events = append(out.Events, &pb.HistoryEvent{Seq: int64(e.Seq), Time: timestamppb.New(e.Time), Kind: string(e.Kind), Name: e.Name,
+			Version: int32(e.Version), Alias: e.Alias, FromVersion: int32(e.From), By: e.By, Detail: e.Detail})
+	}
+	return out, nil
 }
 
 // DeleteModelVersion removes one version that no alias points at.

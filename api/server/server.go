@@ -117,7 +117,9 @@ func Policy() auth.Policy {
 		pb.ModelService_GetModel_FullMethodName:        auth.RolePlace,
 
 		pb.ModelService_PublishModel_FullMethodName: auth.RolePublish,
+		pb.ModelService_ListHistory_FullMethodName:  auth.RolePlace,
 		pb.ModelService_SetAlias_FullMethodName:     auth.RolePublish,
+		pb.ModelService_RemoveAlias_FullMethodName:  auth.RolePublish,
 
 		pb.ModelService_DeleteModelVersion_FullMethodName: auth.RoleAdmin,
 		pb.ModelService_ExportModel_FullMethodName:        auth.RoleAdmin,

@@ -110,7 +110,11 @@ type ModelSummary struct {
 	Versions      []int32 `protobuf:"varint,2,rep,packed,name=versions,proto3" json:"versions,omitempty"`
 	LatestVersion int32   `protobuf:"varint,3,opt,name=latest_version,json=latestVersion,proto3" json:"latest_version,omitempty"`
 	// aliases map alias names to the versions they point at.
-	Aliases       map[string]int32 `protobuf:"bytes,4,rep,name=aliases,proto3" json:"aliases,omitempty" protobuf_key:"bytes,1,opt,name=key" protobuf_val:"varint,2,opt,name=value"`
+	Aliases map[string]int32 `protobuf:"bytes,4,rep,name=aliases,proto3" json:"aliases,omitempty" protobuf_key:"bytes,1,opt,name=key" protobuf_val:"varint,2,opt,name=value"`
+	// version_details are the versions' records, ascending.
+	VersionDetails []*ModelVersionInfo `protobuf:"bytes,5,rep,name=version_details,json=versionDetails,proto3" json:"version_details,omitempty"`
+	// alias_details say who set each alias when, by alias.
+	AliasDetails  []*AliasInfo `protobuf:"bytes,6,rep,name=alias_details,json=aliasDetails,proto3" json:"alias_details,omitempty"`
 	unknownFields protoimpl.UnknownFields
 	sizeCache     protoimpl.SizeCache
 }
@@ -173,6 +177,89 @@ func (x *ModelSummary) GetAliases() map[string]int32 {
 	return nil
 }
 
+func (x *ModelSummary) GetVersionDetails() []*ModelVersionInfo {
+	if x != nil {
+		return x.VersionDetails
+	}
+	return nil
+}
+
+func (x *ModelSummary) GetAliasDetails() []*AliasInfo {
+	if x != nil {
+		return x.AliasDetails
+	}
+	return nil
+}
+
+// AliasInfo says where an alias points, and who set it when.
+type AliasInfo struct {
+	state         protoimpl.MessageState `protogen:"open.v1"`
+	Alias         string                 `protobuf:"bytes,1,opt,name=alias,proto3" json:"alias,omitempty"`
+	Version       int32                  `protobuf:"varint,2,opt,name=version,proto3" json:"version,omitempty"`
+	SetBy         string                 `protobuf:"bytes,3,opt,name=set_by,json=setBy,proto3" json:"set_by,omitempty"`
+	SetTime       *timestamppb.Timestamp `protobuf:"bytes,4,opt,name=set_time,json=setTime,proto3" json:"set_time,omitempty"`
+	unknownFields protoimpl.UnknownFields
+	sizeCache     protoimpl.SizeCache
+}
+
+func (x *AliasInfo) Reset() {
+	*x = AliasInfo{}
+	mi := &file_strayleaf_v1_model_service_proto_msgTypes[3]
+	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+	ms.StoreMessageInfo(mi)
+}
+
+func (x *AliasInfo) String() string {
+	return protoimpl.X.MessageStringOf(x)
+}
+
+func (*AliasInfo) ProtoMessage() {}
+
+func (x *AliasInfo) ProtoReflect() protoreflect.Message {
+	mi := &file_strayleaf_v1_model_service_proto_msgTypes[3]
+	if x != nil {
+		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+		if ms.LoadMessageInfo() == nil {
+			ms.StoreMessageInfo(mi)
+		}
+		return ms
+	}
+	return mi.MessageOf(x)
+}
+
+// Deprecated: Use AliasInfo.ProtoReflect.Descriptor instead.
+func (*AliasInfo) Descriptor() ([]byte, []int) {
+	return file_strayleaf_v1_model_service_proto_rawDescGZIP(), []int{3}
+}
+
+func (x *AliasInfo) GetAlias() string {
+	if x != nil {
+		return x.Alias
+	}
+	return ""
+}
+
+func (x *AliasInfo) GetVersion() int32 {
+	if x != nil {
+		return x.Version
+	}
+	return 0
+}
+
+func (x *AliasInfo) GetSetBy() string {
+	if x != nil {
+		return x.SetBy
+	}
+	return ""
+}
+
+func (x *AliasInfo) GetSetTime() *timestamppb.Timestamp {
+	if x != nil {
+		return x.SetTime
+	}
+	return nil
+}
+
 type GetModelRequest struct {
 	state protoimpl.MessageState `protogen:"open.v1"`
 	// model is a model reference: "name", "name@3" or "name@alias".
@@ -183,7 +270,7 @@ type GetModelRequest struct {
 
 func (x *GetModelRequest) Reset() {
 	*x = GetModelRequest{}
-	mi := &file_strayleaf_v1_model_service_proto_msgTypes[3]
+	mi := &file_strayleaf_v1_model_service_proto_msgTypes[4]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -195,7 +282,7 @@ func (x *GetModelRequest) String() string {
 func (*GetModelRequest) ProtoMessage() {}
 
 func (x *GetModelRequest) ProtoReflect() protoreflect.Message {
-	mi := &file_strayleaf_v1_model_service_proto_msgTypes[3]
+	mi := &file_strayleaf_v1_model_service_proto_msgTypes[4]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -208,7 +295,7 @@ func (x *GetModelRequest) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use GetModelRequest.ProtoReflect.Descriptor instead.
 func (*GetModelRequest) Descriptor() ([]byte, []int) {
-	return file_strayleaf_v1_model_service_proto_rawDescGZIP(), []int{3}
+	return file_strayleaf_v1_model_service_proto_rawDescGZIP(), []int{4}
 }
 
 func (x *GetModelRequest) GetModel() string {
@@ -247,7 +334,7 @@ type GetModelResponse struct {
 
 func (x *GetModelResponse) Reset() {
 	*x = GetModelResponse{}
-	mi := &file_strayleaf_v1_model_service_proto_msgTypes[4]
+	mi := &file_strayleaf_v1_model_service_proto_msgTypes[5]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -259,7 +346,7 @@ func (x *GetModelResponse) String() string {
 func (*GetModelResponse) ProtoMessage() {}
 
 func (x *GetModelResponse) ProtoReflect() protoreflect.Message {
-	mi := &file_strayleaf_v1_model_service_proto_msgTypes[4]
+	mi := &file_strayleaf_v1_model_service_proto_msgTypes[5]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -272,7 +359,7 @@ func (x *GetModelResponse) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use GetModelResponse.ProtoReflect.Descriptor instead.
 func (*GetModelResponse) Descriptor() ([]byte, []int) {
-	return file_strayleaf_v1_model_service_proto_rawDescGZIP(), []int{4}
+	return file_strayleaf_v1_model_service_proto_rawDescGZIP(), []int{5}
 }
 
 func (x *GetModelResponse) GetModel() string {
@@ -389,15 +476,17 @@ type ModelVersionInfo struct {
 	PublishedBy string `protobuf:"bytes,3,opt,name=published_by,json=publishedBy,proto3" json:"published_by,omitempty"`
 	Note        string `protobuf:"bytes,4,opt,name=note,proto3" json:"note,omitempty"`
 	// bundle_sha256 is the hex SHA-256 of the bundle bytes.
-	BundleSha256  string `protobuf:"bytes,5,opt,name=bundle_sha256,json=bundleSha256,proto3" json:"bundle_sha256,omitempty"`
-	BundleBytes   int32  `protobuf:"varint,6,opt,name=bundle_bytes,json=bundleBytes,proto3" json:"bundle_bytes,omitempty"`
+	BundleSha256 string `protobuf:"bytes,5,opt,name=bundle_sha256,json=bundleSha256,proto3" json:"bundle_sha256,omitempty"`
+	BundleBytes  int32  `protobuf:"varint,6,opt,name=bundle_bytes,json=bundleBytes,proto3" json:"bundle_bytes,omitempty"`
+	// summary is the training summary recorded at publish time.
+	Summary       *VersionSummary `protobuf:"bytes,7,opt,name=summary,proto3" json:"summary,omitempty"`
 	unknownFields protoimpl.UnknownFields
 	sizeCache     protoimpl.SizeCache
 }
 
 func (x *ModelVersionInfo) Reset() {
 	*x = ModelVersionInfo{}
-	mi := &file_strayleaf_v1_model_service_proto_msgTypes[5]
+	mi := &file_strayleaf_v1_model_service_proto_msgTypes[6]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -409,7 +498,7 @@ func (x *ModelVersionInfo) String() string {
 func (*ModelVersionInfo) ProtoMessage() {}
 
 func (x *ModelVersionInfo) ProtoReflect() protoreflect.Message {
-	mi := &file_strayleaf_v1_model_service_proto_msgTypes[5]
+	mi := &file_strayleaf_v1_model_service_proto_msgTypes[6]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -422,7 +511,7 @@ func (x *ModelVersionInfo) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use ModelVersionInfo.ProtoReflect.Descriptor instead.
 func (*ModelVersionInfo) Descriptor() ([]byte, []int) {
-	return file_strayleaf_v1_model_service_proto_rawDescGZIP(), []int{5}
+	return file_strayleaf_v1_model_service_proto_rawDescGZIP(), []int{6}
 }
 
 func (x *ModelVersionInfo) GetVersion() int32 {
@@ -467,6 +556,122 @@ func (x *ModelVersionInfo) GetBundleBytes() int32 {
 	return 0
 }
 
+func (x *ModelVersionInfo) GetSummary() *VersionSummary {
+	if x != nil {
+		return x.Summary
+	}
+	return nil
+}
+
+// VersionSummary is the training summary the store records with a version.
+type VersionSummary struct {
+	state                protoimpl.MessageState `protogen:"open.v1"`
+	FormatVersion        int32                  `protobuf:"varint,1,opt,name=format_version,json=formatVersion,proto3" json:"format_version,omitempty"`
+	GroupCount           int32                  `protobuf:"varint,2,opt,name=group_count,json=groupCount,proto3" json:"group_count,omitempty"`
+	UnitCount            int32                  `protobuf:"varint,3,opt,name=unit_count,json=unitCount,proto3" json:"unit_count,omitempty"`
+	ProfileReadingCount  int32                  `protobuf:"varint,4,opt,name=profile_reading_count,json=profileReadingCount,proto3" json:"profile_reading_count,omitempty"`
+	TrainingWitnessCount int32                  `protobuf:"varint,5,opt,name=training_witness_count,json=trainingWitnessCount,proto3" json:"training_witness_count,omitempty"`
+	Objective            float64                `protobuf:"fixed64,6,opt,name=objective,proto3" json:"objective,omitempty"`
+	RelativeError        float64                `protobuf:"fixed64,7,opt,name=relative_error,json=relativeError,proto3" json:"relative_error,omitempty"`
+	CollationSha256      string                 `protobuf:"bytes,8,opt,name=collation_sha256,json=collationSha256,proto3" json:"collation_sha256,omitempty"`
+	Calibrated           bool                   `protobuf:"varint,9,opt,name=calibrated,proto3" json:"calibrated,omitempty"`
+	unknownFields        protoimpl.UnknownFields
+	sizeCache            protoimpl.SizeCache
+}
+
+func (x *VersionSummary) Reset() {
+	*x = VersionSummary{}
+	mi := &file_strayleaf_v1_model_service_proto_msgTypes[7]
+	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+	ms.StoreMessageInfo(mi)
+}
+
+func (x *VersionSummary) String() string {
+	return protoimpl.X.MessageStringOf(x)
+}
+
+func (*VersionSummary) ProtoMessage() {}
+
+func (x *VersionSummary) ProtoReflect() protoreflect.Message {
+	mi := &file_strayleaf_v1_model_service_proto_msgTypes[7]
+	if x != nil {
+		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+		if ms.LoadMessageInfo() == nil {
+			ms.StoreMessageInfo(mi)
+		}
+		return ms
+	}
+	return mi.MessageOf(x)
+}
+
+// Deprecated: Use VersionSummary.ProtoReflect.Descriptor instead.
+func (*VersionSummary) Descriptor() ([]byte, []int) {
+	return file_strayleaf_v1_model_service_proto_rawDescGZIP(), []int{7}
+}
+
+func (x *VersionSummary) GetFormatVersion() int32 {
+	if x != nil {
+		return x.FormatVersion
+	}
+	return 0
+}
+
+func (x *VersionSummary) GetGroupCount() int32 {
+	if x != nil {
+		return x.GroupCount
+	}
+	return 0
+}
+
+func (x *VersionSummary) GetUnitCount() int32 {
+	if x != nil {
+		return x.UnitCount
+	}
+	return 0
+}
+
+func (x *VersionSummary) GetProfileReadingCount() int32 {
+	if x != nil {
+		return x.ProfileReadingCount
+	}
+	return 0
+}
+
+func (x *VersionSummary) GetTrainingWitnessCount() int32 {
+	if x != nil {
+		return x.TrainingWitnessCount
+	}
+	return 0
+}
+
+func (x *VersionSummary) GetObjective() float64 {
+	if x != nil {
+		return x.Objective
+	}
+	return 0
+}
+
+func (x *VersionSummary) GetRelativeError() float64 {
+	if x != nil {
+		return x.RelativeError
+	}
+	return 0
+}
+
+func (x *VersionSummary) GetCollationSha256() string {
+	if x != nil {
+		return x.CollationSha256
+	}
+	return ""
+}
+
+func (x *VersionSummary) GetCalibrated() bool {
+	if x != nil {
+		return x.Calibrated
+	}
+	return false
+}
+
 // UnitInfo is a variation unit as the model knows it.
 type UnitInfo struct {
 	state   protoimpl.MessageState `protogen:"open.v1"`
@@ -483,7 +688,7 @@ type UnitInfo struct {
 
 func (x *UnitInfo) Reset() {
 	*x = UnitInfo{}
-	mi := &file_strayleaf_v1_model_service_proto_msgTypes[6]
+	mi := &file_strayleaf_v1_model_service_proto_msgTypes[8]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -495,7 +700,7 @@ func (x *UnitInfo) String() string {
 func (*UnitInfo) ProtoMessage() {}
 
 func (x *UnitInfo) ProtoReflect() protoreflect.Message {
-	mi := &file_strayleaf_v1_model_service_proto_msgTypes[6]
+	mi := &file_strayleaf_v1_model_service_proto_msgTypes[8]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -508,7 +713,7 @@ func (x *UnitInfo) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use UnitInfo.ProtoReflect.Descriptor instead.
 func (*UnitInfo) Descriptor() ([]byte, []int) {
-	return file_strayleaf_v1_model_service_proto_rawDescGZIP(), []int{6}
+	return file_strayleaf_v1_model_service_proto_rawDescGZIP(), []int{8}
 }
 
 func (x *UnitInfo) GetId() string {
@@ -550,7 +755,7 @@ type SetAsideCounts struct {
 
 func (x *SetAsideCounts) Reset() {
 	*x = SetAsideCounts{}
-	mi := &file_strayleaf_v1_model_service_proto_msgTypes[7]
+	mi := &file_strayleaf_v1_model_service_proto_msgTypes[9]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -562,7 +767,7 @@ func (x *SetAsideCounts) String() string {
 func (*SetAsideCounts) ProtoMessage() {}
 
 func (x *SetAsideCounts) ProtoReflect() protoreflect.Message {
-	mi := &file_strayleaf_v1_model_service_proto_msgTypes[7]
+	mi := &file_strayleaf_v1_model_service_proto_msgTypes[9]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -575,7 +780,7 @@ func (x *SetAsideCounts) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use SetAsideCounts.ProtoReflect.Descriptor instead.
 func (*SetAsideCounts) Descriptor() ([]byte, []int) {
-	return file_strayleaf_v1_model_service_proto_rawDescGZIP(), []int{7}
+	return file_strayleaf_v1_model_service_proto_rawDescGZIP(), []int{9}
 }
 
 func (x *SetAsideCounts) GetSingularReadings() int32 {
@@ -615,7 +820,7 @@ type PublishModelRequest struct {
 
 func (x *PublishModelRequest) Reset() {
 	*x = PublishModelRequest{}
-	mi := &file_strayleaf_v1_model_service_proto_msgTypes[8]
+	mi := &file_strayleaf_v1_model_service_proto_msgTypes[10]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -627,7 +832,7 @@ func (x *PublishModelRequest) String() string {
 func (*PublishModelRequest) ProtoMessage() {}
 
 func (x *PublishModelRequest) ProtoReflect() protoreflect.Message {
-	mi := &file_strayleaf_v1_model_service_proto_msgTypes[8]
+	mi := &file_strayleaf_v1_model_service_proto_msgTypes[10]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -640,7 +845,7 @@ func (x *PublishModelRequest) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use PublishModelRequest.ProtoReflect.Descriptor instead.
 func (*PublishModelRequest) Descriptor() ([]byte, []int) {
-	return file_strayleaf_v1_model_service_proto_rawDescGZIP(), []int{8}
+	return file_strayleaf_v1_model_service_proto_rawDescGZIP(), []int{10}
 }
 
 func (x *PublishModelRequest) GetName() string {
@@ -683,7 +888,7 @@ type PublishModelResponse struct {
 
 func (x *PublishModelResponse) Reset() {
 	*x = PublishModelResponse{}
-	mi := &file_strayleaf_v1_model_service_proto_msgTypes[9]
+	mi := &file_strayleaf_v1_model_service_proto_msgTypes[11]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -695,7 +900,7 @@ func (x *PublishModelResponse) String() string {
 func (*PublishModelResponse) ProtoMessage() {}
 
 func (x *PublishModelResponse) ProtoReflect() protoreflect.Message {
-	mi := &file_strayleaf_v1_model_service_proto_msgTypes[9]
+	mi := &file_strayleaf_v1_model_service_proto_msgTypes[11]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -708,7 +913,7 @@ func (x *PublishModelResponse) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use PublishModelResponse.ProtoReflect.Descriptor instead.
 func (*PublishModelResponse) Descriptor() ([]byte, []int) {
-	return file_strayleaf_v1_model_service_proto_rawDescGZIP(), []int{9}
+	return file_strayleaf_v1_model_service_proto_rawDescGZIP(), []int{11}
 }
 
 func (x *PublishModelResponse) GetModel() string {
@@ -743,7 +948,7 @@ type SetAliasRequest struct {
 
 func (x *SetAliasRequest) Reset() {
 	*x = SetAliasRequest{}
-	mi := &file_strayleaf_v1_model_service_proto_msgTypes[10]
+	mi := &file_strayleaf_v1_model_service_proto_msgTypes[12]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -755,7 +960,7 @@ func (x *SetAliasRequest) String() string {
 func (*SetAliasRequest) ProtoMessage() {}
 
 func (x *SetAliasRequest) ProtoReflect() protoreflect.Message {
-	mi := &file_strayleaf_v1_model_service_proto_msgTypes[10]
+	mi := &file_strayleaf_v1_model_service_proto_msgTypes[12]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -768,7 +973,7 @@ func (x *SetAliasRequest) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use SetAliasRequest.ProtoReflect.Descriptor instead.
 func (*SetAliasRequest) Descriptor() ([]byte, []int) {
-	return file_strayleaf_v1_model_service_proto_rawDescGZIP(), []int{10}
+	return file_strayleaf_v1_model_service_proto_rawDescGZIP(), []int{12}
 }
 
 func (x *SetAliasRequest) GetName() string {
@@ -802,7 +1007,7 @@ type SetAliasResponse struct {
 
 func (x *SetAliasResponse) Reset() {
 	*x = SetAliasResponse{}
-	mi := &file_strayleaf_v1_model_service_proto_msgTypes[11]
+	mi := &file_strayleaf_v1_model_service_proto_msgTypes[13]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -814,7 +1019,7 @@ func (x *SetAliasResponse) String() string {
 func (*SetAliasResponse) ProtoMessage() {}
 
 func (x *SetAliasResponse) ProtoReflect() protoreflect.Message {
-	mi := &file_strayleaf_v1_model_service_proto_msgTypes[11]
+	mi := &file_strayleaf_v1_model_service_proto_msgTypes[13]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -827,12 +1032,302 @@ func (x *SetAliasResponse) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use SetAliasResponse.ProtoReflect.Descriptor instead.
 func (*SetAliasResponse) Descriptor() ([]byte, []int) {
-	return file_strayleaf_v1_model_service_proto_rawDescGZIP(), []int{11}
+	return file_strayleaf_v1_model_service_proto_rawDescGZIP(), []int{13}
 }
 
 func (x *SetAliasResponse) GetModel() string {
 	if x != nil {
 		return x.Model
+	}
+	return ""
+}
+
+type RemoveAliasRequest struct {
+	state         protoimpl.MessageState `protogen:"open.v1"`
+	Name          string                 `protobuf:"bytes,1,opt,name=name,proto3" json:"name,omitempty"`
+	Alias         string                 `protobuf:"bytes,2,opt,name=alias,proto3" json:"alias,omitempty"`
+	unknownFields protoimpl.UnknownFields
+	sizeCache     protoimpl.SizeCache
+}
+
+func (x *RemoveAliasRequest) Reset() {
+	*x = RemoveAliasRequest{}
+	mi := &file_strayleaf_v1_model_service_proto_msgTypes[14]
+	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+	ms.StoreMessageInfo(mi)
+}
+
+func (x *RemoveAliasRequest) String() string {
+	return protoimpl.X.MessageStringOf(x)
+}
+
+func (*RemoveAliasRequest) ProtoMessage() {}
+
+func (x *RemoveAliasRequest) ProtoReflect() protoreflect.Message {
+	mi := &file_strayleaf_v1_model_service_proto_msgTypes[14]
+	if x != nil {
+		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+		if ms.LoadMessageInfo() == nil {
+			ms.StoreMessageInfo(mi)
+		}
+		return ms
+	}
+	return mi.MessageOf(x)
+}
+
+// Deprecated: Use RemoveAliasRequest.ProtoReflect.Descriptor instead.
+func (*RemoveAliasRequest) Descriptor() ([]byte, []int) {
+	return file_strayleaf_v1_model_service_proto_rawDescGZIP(), []int{14}
+}
+
+func (x *RemoveAliasRequest) GetName() string {
+	if x != nil {
+		return x.Name
+	}
+	return ""
+}
+
+func (x *RemoveAliasRequest) GetAlias() string {
+	if x != nil {
+		return x.Alias
+	}
+	return ""
+}
+
+type RemoveAliasResponse struct {
+	state         protoimpl.MessageState `protogen:"open.v1"`
+	unknownFields protoimpl.UnknownFields
+	sizeCache     protoimpl.SizeCache
+}
+
+func (x *RemoveAliasResponse) Reset() {
+	*x = RemoveAliasResponse{}
+	mi := &file_strayleaf_v1_model_service_proto_msgTypes[15]
+	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+	ms.StoreMessageInfo(mi)
+}
+
+func (x *RemoveAliasResponse) String() string {
+	return protoimpl.X.MessageStringOf(x)
+}
+
+func (*RemoveAliasResponse) ProtoMessage() {}
+
+func (x *RemoveAliasResponse) ProtoReflect() protoreflect.Message {
+	mi := &file_strayleaf_v1_model_service_proto_msgTypes[15]
+	if x != nil {
+		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+		if ms.LoadMessageInfo() == nil {
+			ms.StoreMessageInfo(mi)
+		}
+		return ms
+	}
+	return mi.MessageOf(x)
+}
+
+// Deprecated: Use RemoveAliasResponse.ProtoReflect.Descriptor instead.
+func (*RemoveAliasResponse) Descriptor() ([]byte, []int) {
+	return file_strayleaf_v1_model_service_proto_rawDescGZIP(), []int{15}
+}
+
+type ListHistoryRequest struct {
+	state protoimpl.MessageState `protogen:"open.v1"`
+	// name limits the history to one model (empty: all models).
+	Name          string `protobuf:"bytes,1,opt,name=name,proto3" json:"name,omitempty"`
+	unknownFields protoimpl.UnknownFields
+	sizeCache     protoimpl.SizeCache
+}
+
+func (x *ListHistoryRequest) Reset() {
+	*x = ListHistoryRequest{}
+	mi := &file_strayleaf_v1_model_service_proto_msgTypes[16]
+	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+	ms.StoreMessageInfo(mi)
+}
+
+func (x *ListHistoryRequest) String() string {
+	return protoimpl.X.MessageStringOf(x)
+}
+
+func (*ListHistoryRequest) ProtoMessage() {}
+
+func (x *ListHistoryRequest) ProtoReflect() protoreflect.Message {
+	mi := &file_strayleaf_v1_model_service_proto_msgTypes[16]
+	if x != nil {
+		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+		if ms.LoadMessageInfo() == nil {
+			ms.StoreMessageInfo(mi)
+		}
+		return ms
+	}
+	return mi.MessageOf(x)
+}
+
+// Deprecated: Use ListHistoryRequest.ProtoReflect.Descriptor instead.
+func (*ListHistoryRequest) Descriptor() ([]byte, []int) {
+	return file_strayleaf_v1_model_service_proto_rawDescGZIP(), []int{16}
+}
+
+func (x *ListHistoryRequest) GetName() string {
+	if x != nil {
+		return x.Name
+	}
+	return ""
+}
+
+type ListHistoryResponse struct {
+	state         protoimpl.MessageState `protogen:"open.v1"`
+	Events        []*HistoryEvent        `protobuf:"bytes,1,rep,name=events,proto3" json:"events,omitempty"`
+	unknownFields protoimpl.UnknownFields
+	sizeCache     protoimpl.SizeCache
+}
+
+func (x *ListHistoryResponse) Reset() {
+	*x = ListHistoryResponse{}
+	mi := &file_strayleaf_v1_model_service_proto_msgTypes[17]
+	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+	ms.StoreMessageInfo(mi)
+}
+
+func (x *ListHistoryResponse) String() string {
+	return protoimpl.X.MessageStringOf(x)
+}
+
+func (*ListHistoryResponse) ProtoMessage() {}
+
+func (x *ListHistoryResponse) ProtoReflect() protoreflect.Message {
+	mi := &file_strayleaf_v1_model_service_proto_msgTypes[17]
+	if x != nil {
+		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+		if ms.LoadMessageInfo() == nil {
+			ms.StoreMessageInfo(mi)
+		}
+		return ms
+	}
+	return mi.MessageOf(x)
+}
+
+// Deprecated: Use ListHistoryResponse.ProtoReflect.Descriptor instead.
+func (*ListHistoryResponse) Descriptor() ([]byte, []int) {
+	return file_strayleaf_v1_model_service_proto_rawDescGZIP(), []int{17}
+}
+
+func (x *ListHistoryResponse) GetEvents() []*HistoryEvent {
+	if x != nil {
+		return x.Events
+	}
+	return nil
+}
+
+// HistoryEvent is one entry of the store's append-only history.
+type HistoryEvent struct {
+	state protoimpl.MessageState `protogen:"open.v1"`
+	// seq numbers the events from 1 in the order they were committed.
+	Seq  int64                  `protobuf:"varint,1,opt,name=seq,proto3" json:"seq,omitempty"`
+	Time *timestamppb.Timestamp `protobuf:"bytes,2,opt,name=time,proto3" json:"time,omitempty"`
+	// kind is publish, import, alias, unalias or delete.
+	Kind    string `protobuf:"bytes,3,opt,name=kind,proto3" json:"kind,omitempty"`
+	Name    string `protobuf:"bytes,4,opt,name=name,proto3" json:"name,omitempty"`
+	Version int32  `protobuf:"varint,5,opt,name=version,proto3" json:"version,omitempty"`
+	// alias and from_version are set for alias and unalias events (from_version 0: the alias
+	// was new).
+	Alias         string `protobuf:"bytes,6,opt,name=alias,proto3" json:"alias,omitempty"`
+	FromVersion   int32  `protobuf:"varint,7,opt,name=from_version,json=fromVersion,proto3" json:"from_version,omitempty"`
+	By            string `protobuf:"bytes,8,opt,name=by,proto3" json:"by,omitempty"`
+	Detail        string `protobuf:"bytes,9,opt,name=detail,proto3" json:"detail,omitempty"`
+	unknownFields protoimpl.UnknownFields
+	sizeCache     protoimpl.SizeCache
+}
+
+func (x *HistoryEvent) Reset() {
+	*x = HistoryEvent{}
+	mi := &file_strayleaf_v1_model_service_proto_msgTypes[18]
+	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+	ms.StoreMessageInfo(mi)
+}
+
+func (x *HistoryEvent) String() string {
+	return protoimpl.X.MessageStringOf(x)
+}
+
+func (*HistoryEvent) ProtoMessage() {}
+
+func (x *HistoryEvent) ProtoReflect() protoreflect.Message {
+	mi := &file_strayleaf_v1_model_service_proto_msgTypes[18]
+	if x != nil {
+		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+		if ms.LoadMessageInfo() == nil {
+			ms.StoreMessageInfo(mi)
+		}
+		return ms
+	}
+	return mi.MessageOf(x)
+}
+
+// Deprecated: Use HistoryEvent.ProtoReflect.Descriptor instead.
+func (*HistoryEvent) Descriptor() ([]byte, []int) {
+	return file_strayleaf_v1_model_service_proto_rawDescGZIP(), []int{18}
+}
+
+func (x *HistoryEvent) GetSeq() int64 {
+	if x != nil {
+		return x.Seq
+	}
+	return 0
+}
+
+func (x *HistoryEvent) GetTime() *timestamppb.Timestamp {
+	if x != nil {
+		return x.Time
+	}
+	return nil
+}
+
+func (x *HistoryEvent) GetKind() string {
+	if x != nil {
+		return x.Kind
+	}
+	return ""
+}
+
+func (x *HistoryEvent) GetName() string {
+	if x != nil {
+		return x.Name
+	}
+	return ""
+}
+
+func (x *HistoryEvent) GetVersion() int32 {
+	if x != nil {
+		return x.Version
+	}
+	return 0
+}
+
+func (x *HistoryEvent) GetAlias() string {
+	if x != nil {
+		return x.Alias
+	}
+	return ""
+}
+
+func (x *HistoryEvent) GetFromVersion() int32 {
+	if x != nil {
+		return x.FromVersion
+	}
+	return 0
+}
+
+func (x *HistoryEvent) GetBy() string {
+	if x != nil {
+		return x.By
+	}
+	return ""
+}
+
+func (x *HistoryEvent) GetDetail() string {
+	if x != nil {
+		return x.Detail
 	}
 	return ""
 }
@@ -847,7 +1342,7 @@ type DeleteModelVersionRequest struct {
 
 func (x *DeleteModelVersionRequest) Reset() {
 	*x = DeleteModelVersionRequest{}
-	mi := &file_strayleaf_v1_model_service_proto_msgTypes[12]
+	mi := &file_strayleaf_v1_model_service_proto_msgTypes[19]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -859,7 +1354,7 @@ func (x *DeleteModelVersionRequest) String() string {
 func (*DeleteModelVersionRequest) ProtoMessage() {}
 
 func (x *DeleteModelVersionRequest) ProtoReflect() protoreflect.Message {
-	mi := &file_strayleaf_v1_model_service_proto_msgTypes[12]
+	mi := &file_strayleaf_v1_model_service_proto_msgTypes[19]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -872,7 +1367,7 @@ func (x *DeleteModelVersionRequest) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use DeleteModelVersionRequest.ProtoReflect.Descriptor instead.
 func (*DeleteModelVersionRequest) Descriptor() ([]byte, []int) {
-	return file_strayleaf_v1_model_service_proto_rawDescGZIP(), []int{12}
+	return file_strayleaf_v1_model_service_proto_rawDescGZIP(), []int{19}
 }
 
 func (x *DeleteModelVersionRequest) GetName() string {
@@ -897,7 +1392,7 @@ type DeleteModelVersionResponse struct {
 
 func (x *DeleteModelVersionResponse) Reset() {
 	*x = DeleteModelVersionResponse{}
-	mi := &file_strayleaf_v1_model_service_proto_msgTypes[13]
+	mi := &file_strayleaf_v1_model_service_proto_msgTypes[20]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -909,7 +1404,7 @@ func (x *DeleteModelVersionResponse) String() string {
 func (*DeleteModelVersionResponse) ProtoMessage() {}
 
 func (x *DeleteModelVersionResponse) ProtoReflect() protoreflect.Message {
-	mi := &file_strayleaf_v1_model_service_proto_msgTypes[13]
+	mi := &file_strayleaf_v1_model_service_proto_msgTypes[20]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -922,7 +1417,7 @@ func (x *DeleteModelVersionResponse) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use DeleteModelVersionResponse.ProtoReflect.Descriptor instead.
 func (*DeleteModelVersionResponse) Descriptor() ([]byte, []int) {
-	return file_strayleaf_v1_model_service_proto_rawDescGZIP(), []int{13}
+	return file_strayleaf_v1_model_service_proto_rawDescGZIP(), []int{20}
 }
 
 type ExportModelRequest struct {
@@ -934,7 +1429,7 @@ type ExportModelRequest struct {
 
 func (x *ExportModelRequest) Reset() {
 	*x = ExportModelRequest{}
-	mi := &file_strayleaf_v1_model_service_proto_msgTypes[14]
+	mi := &file_strayleaf_v1_model_service_proto_msgTypes[21]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -946,7 +1441,7 @@ func (x *ExportModelRequest) String() string {
 func (*ExportModelRequest) ProtoMessage() {}
 
 func (x *ExportModelRequest) ProtoReflect() protoreflect.Message {
-	mi := &file_strayleaf_v1_model_service_proto_msgTypes[14]
+	mi := &file_strayleaf_v1_model_service_proto_msgTypes[21]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -959,7 +1454,7 @@ func (x *ExportModelRequest) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use ExportModelRequest.ProtoReflect.Descriptor instead.
 func (*ExportModelRequest) Descriptor() ([]byte, []int) {
-	return file_strayleaf_v1_model_service_proto_rawDescGZIP(), []int{14}
+	return file_strayleaf_v1_model_service_proto_rawDescGZIP(), []int{21}
 }
 
 func (x *ExportModelRequest) GetModel() string {
@@ -981,7 +1476,7 @@ type ExportModelResponse struct {
 
 func (x *ExportModelResponse) Reset() {
 	*x = ExportModelResponse{}
-	mi := &file_strayleaf_v1_model_service_proto_msgTypes[15]
+	mi := &file_strayleaf_v1_model_service_proto_msgTypes[22]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -993,7 +1488,7 @@ func (x *ExportModelResponse) String() string {
 func (*ExportModelResponse) ProtoMessage() {}
 
 func (x *ExportModelResponse) ProtoReflect() protoreflect.Message {
-	mi := &file_strayleaf_v1_model_service_proto_msgTypes[15]
+	mi := &file_strayleaf_v1_model_service_proto_msgTypes[22]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -1006,7 +1501,7 @@ func (x *ExportModelResponse) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use ExportModelResponse.ProtoReflect.Descriptor instead.
 func (*ExportModelResponse) Descriptor() ([]byte, []int) {
-	return file_strayleaf_v1_model_service_proto_rawDescGZIP(), []int{15}
+	return file_strayleaf_v1_model_service_proto_rawDescGZIP(), []int{22}
 }
 
 func (x *ExportModelResponse) GetModel() string {
@@ -1037,15 +1532,22 @@ const file_strayleaf_v1_model_service_proto_rawDesc = "" +
 	" strayleaf/v1/model_service.proto\x12\fstrayleaf.v1\x1a\x1fgoogle/protobuf/timestamp.proto\x1a\x18strayleaf/v1/model.proto\"\x13\n" +
 	"\x11ListModelsRequest\"H\n" +
 	"\x12ListModelsResponse\x122\n" +
-	"\x06models\x18\x01 \x03(\v2\x1a.strayleaf.v1.ModelSummaryR\x06models\"\xe4\x01\n" +
+	"\x06models\x18\x01 \x03(\v2\x1a.strayleaf.v1.ModelSummaryR\x06models\"\xeb\x02\n" +
 	"\fModelSummary\x12\x12\n" +
 	"\x04name\x18\x01 \x01(\tR\x04name\x12\x1a\n" +
 	"\bversions\x18\x02 \x03(\x05R\bversions\x12%\n" +
 	"\x0elatest_version\x18\x03 \x01(\x05R\rlatestVersion\x12A\n" +
-	"\aaliases\x18\x04 \x03(\v2'.strayleaf.v1.ModelSummary.AliasesEntryR\aaliases\x1a:\n" +
+	"\aaliases\x18\x04 \x03(\v2'.strayleaf.v1.ModelSummary.AliasesEntryR\aaliases\x12G\n" +
+	"\x0fversion_details\x18\x05 \x03(\v2\x1e.strayleaf.v1.ModelVersionInfoR\x0eversionDetails\x12<\n" +
+	"\ralias_details\x18\x06 \x03(\v2\x17.strayleaf.v1.AliasInfoR\faliasDetails\x1a:\n" +
 	"\fAliasesEntry\x12\x10\n" +
 	"\x03key\x18\x01 \x01(\tR\x03key\x12\x14\n" +
-	"\x05value\x18\x02 \x01(\x05R\x05value:\x028\x01\"'\n" +
+	"\x05value\x18\x02 \x01(\x05R\x05value:\x028\x01\"\x89\x01\n" +
+	"\tAliasInfo\x12\x14\n" +
+	"\x05alias\x18\x01 \x01(\tR\x05alias\x12\x18\n" +
+	"\aversion\x18\x02 \x01(\x05R\aversion\x12\x15\n" +
+	"\x06set_by\x18\x03 \x01(\tR\x05setBy\x125\n" +
+	"\bset_time\x18\x04 \x01(\v2\x1a.google.protobuf.TimestampR\asetTime\"'\n" +
 	"\x0fGetModelRequest\x12\x14\n" +
 	"\x05model\x18\x01 \x01(\tR\x05model\"\x9e\x05\n" +
 	"\x10GetModelResponse\x12\x14\n" +
@@ -1065,14 +1567,29 @@ const file_strayleaf_v1_model_service_proto_rawDesc = "" +
 	"\x05units\x18\f \x03(\v2\x16.strayleaf.v1.UnitInfoR\x05units\x124\n" +
 	"\x16training_witness_count\x18\r \x01(\x05R\x14trainingWitnessCount\x122\n" +
 	"\x15profile_reading_count\x18\x0e \x01(\x05R\x13profileReadingCount\x129\n" +
-	"\tset_aside\x18\x0f \x01(\v2\x1c.strayleaf.v1.SetAsideCountsR\bsetAside\"\xea\x01\n" +
+	"\tset_aside\x18\x0f \x01(\v2\x1c.strayleaf.v1.SetAsideCountsR\bsetAside\"\xa2\x02\n" +
 	"\x10ModelVersionInfo\x12\x18\n" +
 	"\aversion\x18\x01 \x01(\x05R\aversion\x12=\n" +
 	"\fpublish_time\x18\x02 \x01(\v2\x1a.google.protobuf.TimestampR\vpublishTime\x12!\n" +
 	"\fpublished_by\x18\x03 \x01(\tR\vpublishedBy\x12\x12\n" +
 	"\x04note\x18\x04 \x01(\tR\x04note\x12#\n" +
 	"\rbundle_sha256\x18\x05 \x01(\tR\fbundleSha256\x12!\n" +
-	"\fbundle_bytes\x18\x06 \x01(\x05R\vbundleBytes\"l\n" +
+	"\fbundle_bytes\x18\x06 \x01(\x05R\vbundleBytes\x126\n" +
+	"\asummary\x18\a \x01(\v2\x1c.strayleaf.v1.VersionSummaryR\asummary\"\xf1\x02\n" +
+	"\x0eVersionSummary\x12%\n" +
+	"\x0eformat_version\x18\x01 \x01(\x05R\rformatVersion\x12\x1f\n" +
+	"\vgroup_count\x18\x02 \x01(\x05R\n" +
+	"groupCount\x12\x1d\n" +
+	"\n" +
+	"unit_count\x18\x03 \x01(\x05R\tunitCount\x122\n" +
+	"\x15profile_reading_count\x18\x04 \x01(\x05R\x13profileReadingCount\x124\n" +
+	"\x16training_witness_count\x18\x05 \x01(\x05R\x14trainingWitnessCount\x12\x1c\n" +
+	"\tobjective\x18\x06 \x01(\x01R\tobjective\x12%\n" +
+	"\x0erelative_error\x18\a \x01(\x01R\rrelativeError\x12)\n" +
+	"\x10collation_sha256\x18\b \x01(\tR\x0fcollationSha256\x12\x1e\n" +
+	"\n" +
+	"calibrated\x18\t \x01(\bR\n" +
+	"calibrated\"l\n" +
 	"\bUnitInfo\x12\x0e\n" +
 	"\x02id\x18\x01 \x01(\tR\x02id\x12\x18\n" +
 	"\asection\x18\x02 \x01(\tR\asection\x12\x1a\n" +
@@ -1096,7 +1613,25 @@ const file_strayleaf_v1_model_service_proto_rawDesc = "" +
 	"\x05alias\x18\x02 \x01(\tR\x05alias\x12\x18\n" +
 	"\aversion\x18\x03 \x01(\x05R\aversion\"(\n" +
 	"\x10SetAliasResponse\x12\x14\n" +
-	"\x05model\x18\x01 \x01(\tR\x05model\"I\n" +
+	"\x05model\x18\x01 \x01(\tR\x05model\">\n" +
+	"\x12RemoveAliasRequest\x12\x12\n" +
+	"\x04name\x18\x01 \x01(\tR\x04name\x12\x14\n" +
+	"\x05alias\x18\x02 \x01(\tR\x05alias\"\x15\n" +
+	"\x13RemoveAliasResponse\"(\n" +
+	"\x12ListHistoryRequest\x12\x12\n" +
+	"\x04name\x18\x01 \x01(\tR\x04name\"I\n" +
+	"\x13ListHistoryResponse\x122\n" +
+	"\x06events\x18\x01 \x03(\v2\x1a.strayleaf.v1.HistoryEventR\x06events\"\xf3\x01\n" +
+	"\fHistoryEvent\x12\x10\n" +
+	"\x03seq\x18\x01 \x01(\x03R\x03seq\x12.\n" +
+	"\x04time\x18\x02 \x01(\v2\x1a.google.protobuf.TimestampR\x04time\x12\x12\n" +
+	"\x04kind\x18\x03 \x01(\tR\x04kind\x12\x12\n" +
+	"\x04name\x18\x04 \x01(\tR\x04name\x12\x18\n" +
+	"\aversion\x18\x05 \x01(\x05R\aversion\x12\x14\n" +
+	"\x05alias\x18\x06 \x01(\tR\x05alias\x12!\n" +
+	"\ffrom_version\x18\a \x01(\x05R\vfromVersion\x12\x0e\n" +
+	"\x02by\x18\b \x01(\tR\x02by\x12\x16\n" +
+	"\x06detail\x18\t \x01(\tR\x06detail\"I\n" +
 	"\x19DeleteModelVersionRequest\x12\x12\n" +
 	"\x04name\x18\x01 \x01(\tR\x04name\x12\x18\n" +
 	"\aversion\x18\x02 \x01(\x05R\aversion\"\x1c\n" +
@@ -1106,14 +1641,16 @@ const file_strayleaf_v1_model_service_proto_rawDesc = "" +
 	"\x13ExportModelResponse\x12\x14\n" +
 	"\x05model\x18\x01 \x01(\tR\x05model\x12\x16\n" +
 	"\x06bundle\x18\x02 \x01(\fR\x06bundle\x12#\n" +
-	"\rbundle_sha256\x18\x03 \x01(\tR\fbundleSha2562\x89\x04\n" +
+	"\rbundle_sha256\x18\x03 \x01(\tR\fbundleSha2562\xb1\x05\n" +
 	"\fModelService\x12O\n" +
 	"\n" +
 	"ListModels\x12\x1f.strayleaf.v1.ListModelsRequest\x1a .strayleaf.v1.ListModelsResponse\x12I\n" +
 	"\bGetModel\x12\x1d.strayleaf.v1.GetModelRequest\x1a\x1e.strayleaf.v1.GetModelResponse\x12U\n" +
 	"\fPublishModel\x12!.strayleaf.v1.PublishModelRequest\x1a\".strayleaf.v1.PublishModelResponse\x12I\n" +
-	"\bSetAlias\x12\x1d.strayleaf.v1.SetAliasRequest\x1a\x1e.strayleaf.v1.SetAliasResponse\x12g\n" +
+	"\bSetAlias\x12\x1d.strayleaf.v1.SetAliasRequest\x1a\x1e.strayleaf.v1.SetAliasResponse\x12R\n" +
+	"\vRemoveAlias\x12 .strayleaf.v1.RemoveAliasRequest\x1a!.strayleaf.v1.RemoveAliasResponse\x12g\n" +
 	"\x12DeleteModelVersion\x12'.strayleaf.v1.DeleteModelVersionRequest\x1a(.strayleaf.v1.DeleteModelVersionResponse\x12R\n" +
+	"\vListHistory\x12 .strayleaf.v1.ListHistoryRequest\x1a!.strayleaf.v1.ListHistoryResponse\x12R\n" +
 	"\vExportModel\x12 .strayleaf.v1.ExportModelRequest\x1a!.strayleaf.v1.ExportModelResponseB*Z(strayleaf/proto/strayleaf/v1;strayleafv1b\x06proto3"
 
 var (
@@ -1128,60 +1665,77 @@ func file_strayleaf_v1_model_service_proto_rawDescGZIP() []byte {
 	return file_strayleaf_v1_model_service_proto_rawDescData
 }
 
-var file_strayleaf_v1_model_service_proto_msgTypes = make([]protoimpl.MessageInfo, 17)
+var file_strayleaf_v1_model_service_proto_msgTypes = make([]protoimpl.MessageInfo, 24)
 var file_strayleaf_v1_model_service_proto_goTypes = []any{
 	(*ListModelsRequest)(nil),          // 0: strayleaf.v1.ListModelsRequest
 	(*ListModelsResponse)(nil),         // 1: strayleaf.v1.ListModelsResponse
 	(*ModelSummary)(nil),               // 2: strayleaf.v1.ModelSummary
-	(*GetModelRequest)(nil),            // 3: strayleaf.v1.GetModelRequest
-	(*GetModelResponse)(nil),           // 4: strayleaf.v1.GetModelResponse
-	(*ModelVersionInfo)(nil),           // 5: strayleaf.v1.ModelVersionInfo
-	(*UnitInfo)(nil),                   // 6: strayleaf.v1.UnitInfo
-	(*SetAsideCounts)(nil),             // 7: strayleaf.v1.SetAsideCounts
-	(*PublishModelRequest)(nil),        // 8: strayleaf.v1.PublishModelRequest
-	(*PublishModelResponse)(nil),       // 9: strayleaf.v1.PublishModelResponse
-	(*SetAliasRequest)(nil),            // 10: strayleaf.v1.SetAliasRequest
-	(*SetAliasResponse)(nil),           // 11: strayleaf.v1.SetAliasResponse
-	(*DeleteModelVersionRequest)(nil),  // 12: strayleaf.v1.DeleteModelVersionRequest
-	(*DeleteModelVersionResponse)(nil), // 13: strayleaf.v1.DeleteModelVersionResponse
-	(*ExportModelRequest)(nil),         // 14: strayleaf.v1.ExportModelRequest
-	(*ExportModelResponse)(nil),        // 15: strayleaf.v1.ExportModelResponse
-	nil,                                // 16: strayleaf.v1.ModelSummary.AliasesEntry
-	(*PrepareSettings)(nil),            // 17: strayleaf.v1.PrepareSettings
-	(*TrainSettings)(nil),              // 18: strayleaf.v1.TrainSettings
-	(*FitSummary)(nil),                 // 19: strayleaf.v1.FitSummary
-	(*GroupSummary)(nil),               // 20: strayleaf.v1.GroupSummary
-	(*timestamppb.Timestamp)(nil),      // 21: google.protobuf.Timestamp
+	(*AliasInfo)(nil),                  // 3: strayleaf.v1.AliasInfo
+	(*GetModelRequest)(nil),            // 4: strayleaf.v1.GetModelRequest
+	(*GetModelResponse)(nil),           // 5: strayleaf.v1.GetModelResponse
+	(*ModelVersionInfo)(nil),           // 6: strayleaf.v1.ModelVersionInfo
+	(*VersionSummary)(nil),             // 7: strayleaf.v1.VersionSummary
+	(*UnitInfo)(nil),                   // 8: strayleaf.v1.UnitInfo
+	(*SetAsideCounts)(nil),             // 9: strayleaf.v1.SetAsideCounts
+	(*PublishModelRequest)(nil),        // 10: strayleaf.v1.PublishModelRequest
+	(*PublishModelResponse)(nil),       // 11: strayleaf.v1.PublishModelResponse
+	(*SetAliasRequest)(nil),            // 12: strayleaf.v1.SetAliasRequest
+	(*SetAliasResponse)(nil),           // 13: strayleaf.v1.SetAliasResponse
+	(*RemoveAliasRequest)(nil),         // 14: strayleaf.v1.RemoveAliasRequest
+	(*RemoveAliasResponse)(nil),        // 15: strayleaf.v1.RemoveAliasResponse
+	(*ListHistoryRequest)(nil),         // 16: strayleaf.v1.ListHistoryRequest
+	(*ListHistoryResponse)(nil),        // 17: strayleaf.v1.ListHistoryResponse
+	(*HistoryEvent)(nil),               // 18: strayleaf.v1.HistoryEvent
+	(*DeleteModelVersionRequest)(nil),  // 19: strayleaf.v1.DeleteModelVersionRequest
+	(*DeleteModelVersionResponse)(nil), // 20: strayleaf.v1.DeleteModelVersionResponse
+	(*ExportModelRequest)(nil),         // 21: strayleaf.v1.ExportModelRequest
+	(*ExportModelResponse)(nil),        // 22: strayleaf.v1.ExportModelResponse
+	nil,                                // 23: strayleaf.v1.ModelSummary.AliasesEntry
+	(*timestamppb.Timestamp)(nil),      // 24: google.protobuf.Timestamp
+	(*PrepareSettings)(nil),            // 25: strayleaf.v1.PrepareSettings
+	(*TrainSettings)(nil),              // 26: strayleaf.v1.TrainSettings
+	(*FitSummary)(nil),                 // 27: strayleaf.v1.FitSummary
+	(*GroupSummary)(nil),               // 28: strayleaf.v1.GroupSummary
 }
 var file_strayleaf_v1_model_service_proto_depIdxs = []int32{
 	2,  // 0: strayleaf.v1.ListModelsResponse.models:type_name -> strayleaf.v1.ModelSummary
-	16, // 1: strayleaf.v1.ModelSummary.aliases:type_name -> strayleaf.v1.ModelSummary.AliasesEntry
-	5,  // 2: strayleaf.v1.GetModelResponse.version_info:type_name -> strayleaf.v1.ModelVersionInfo
-	17, // 3: strayleaf.v1.GetModelResponse.prepare:type_name -> strayleaf.v1.PrepareSettings
-	18, // 4: strayleaf.v1.GetModelResponse.train:type_name -> strayleaf.v1.TrainSettings
-	19, // 5: strayleaf.v1.GetModelResponse.fit:type_name -> strayleaf.v1.FitSummary
-	20, // 6: strayleaf.v1.GetModelResponse.groups:type_name -> strayleaf.v1.GroupSummary
-	6,  // 7: strayleaf.v1.GetModelResponse.units:type_name -> strayleaf.v1.UnitInfo
-	7,  // 8: strayleaf.v1.GetModelResponse.set_aside:type_name -> strayleaf.v1.SetAsideCounts
-	21, // 9: strayleaf.v1.ModelVersionInfo.publish_time:type_name -> google.protobuf.Timestamp
-	5,  // 10: strayleaf.v1.PublishModelResponse.version_info:type_name -> strayleaf.v1.ModelVersionInfo
-	0,  // 11: strayleaf.v1.ModelService.ListModels:input_type -> strayleaf.v1.ListModelsRequest
-	3,  // 12: strayleaf.v1.ModelService.GetModel:input_type -> strayleaf.v1.GetModelRequest
-	8,  // 13: strayleaf.v1.ModelService.PublishModel:input_type -> strayleaf.v1.PublishModelRequest
-	10, // 14: strayleaf.v1.ModelService.SetAlias:input_type -> strayleaf.v1.SetAliasRequest
-	12, // 15: strayleaf.v1.ModelService.DeleteModelVersion:input_type -> strayleaf.v1.DeleteModelVersionRequest
-	14, // 16: strayleaf.v1.ModelService.ExportModel:input_type -> strayleaf.v1.ExportModelRequest
-	1,  // 17: strayleaf.v1.ModelService.ListModels:output_type -> strayleaf.v1.ListModelsResponse
-	4,  // 18: strayleaf.v1.ModelService.GetModel:output_type -> strayleaf.v1.GetModelResponse
-	9,  // 19: strayleaf.v1.ModelService.PublishModel:output_type -> strayleaf.v1.PublishModelResponse
-	11, // 20: strayleaf.v1.ModelService.SetAlias:output_type -> strayleaf.v1.SetAliasResponse
-	13, // 21: strayleaf.v1.ModelService.DeleteModelVersion:output_type -> strayleaf.v1.DeleteModelVersionResponse
-	15, // 22: strayleaf.v1.ModelService.ExportModel:output_type -> strayleaf.v1.ExportModelResponse
-	17, // [17:23] is the sub-list for method output_type
-	11, // [11:17] is the sub-list for method input_type
-	11, // [11:11] is the sub-list for extension type_name
-	11, // [11:11] is the sub-list for extension extendee
-	0,  // [0:11] is the sub-list for field type_name
+	23, // 1: strayleaf.v1.ModelSummary.aliases:type_name -> strayleaf.v1.ModelSummary.AliasesEntry
+	6,  // 2: strayleaf.v1.ModelSummary.version_details:type_name -> strayleaf.v1.ModelVersionInfo
+	3,  // 3: strayleaf.v1.ModelSummary.alias_details:type_name -> strayleaf.v1.AliasInfo
+	24, // 4: strayleaf.v1.AliasInfo.set_time:type_name -> google.protobuf.Timestamp
+	6,  // 5: strayleaf.v1.GetModelResponse.version_info:type_name -> strayleaf.v1.ModelVersionInfo
+	25, // 6: strayleaf.v1.GetModelResponse.prepare:type_name -> strayleaf.v1.PrepareSettings
+	26, // 7: strayleaf.v1.GetModelResponse.train:type_name -> strayleaf.v1.TrainSettings
+	27, // 8: strayleaf.v1.GetModelResponse.fit:type_name -> strayleaf.v1.FitSummary
+	28, // 9: strayleaf.v1.GetModelResponse.groups:type_name -> strayleaf.v1.GroupSummary
+	8,  // 10: strayleaf.v1.GetModelResponse.units:type_name -> strayleaf.v1.UnitInfo
+	9,  // 11: strayleaf.v1.GetModelResponse.set_aside:type_name -> strayleaf.v1.SetAsideCounts
+	24, // 12: strayleaf.v1.ModelVersionInfo.publish_time:type_name -> google.protobuf.Timestamp
+	7,  // 13: strayleaf.v1.ModelVersionInfo.summary:type_name -> strayleaf.v1.VersionSummary
+	6,  // 14: strayleaf.v1.PublishModelResponse.version_info:type_name -> strayleaf.v1.ModelVersionInfo
+	18, // 15: strayleaf.v1.ListHistoryResponse.events:type_name -> strayleaf.v1.HistoryEvent
+	24, // 16: strayleaf.v1.HistoryEvent.time:type_name -> google.protobuf.Timestamp
+	0,  // 17: strayleaf.v1.ModelService.ListModels:input_type -> strayleaf.v1.ListModelsRequest
+	4,  // 18: strayleaf.v1.ModelService.GetModel:input_type -> strayleaf.v1.GetModelRequest
+	10, // 19: strayleaf.v1.ModelService.PublishModel:input_type -> strayleaf.v1.PublishModelRequest
+	12, // 20: strayleaf.v1.ModelService.SetAlias:input_type -> strayleaf.v1.SetAliasRequest
+	14, // 21: strayleaf.v1.ModelService.RemoveAlias:input_type -> strayleaf.v1.RemoveAliasRequest
+	19, // 22: strayleaf.v1.ModelService.DeleteModelVersion:input_type -> strayleaf.v1.DeleteModelVersionRequest
+	16, // 23: strayleaf.v1.ModelService.ListHistory:input_type -> strayleaf.v1.ListHistoryRequest
+	21, // 24: strayleaf.v1.ModelService.ExportModel:input_type -> strayleaf.v1.ExportModelRequest
+	1,  // 25: strayleaf.v1.ModelService.ListModels:output_type -> strayleaf.v1.ListModelsResponse
+	5,  // 26: strayleaf.v1.ModelService.GetModel:output_type -> strayleaf.v1.GetModelResponse
+	11, // 27: strayleaf.v1.ModelService.PublishModel:output_type -> strayleaf.v1.PublishModelResponse
+	13, // 28: strayleaf.v1.ModelService.SetAlias:output_type -> strayleaf.v1.SetAliasResponse
+	15, // 29: strayleaf.v1.ModelService.RemoveAlias:output_type -> strayleaf.v1.RemoveAliasResponse
+	20, // 30: strayleaf.v1.ModelService.DeleteModelVersion:output_type -> strayleaf.v1.DeleteModelVersionResponse
+	17, // 31: strayleaf.v1.ModelService.ListHistory:output_type -> strayleaf.v1.ListHistoryResponse
+	22, // 32: strayleaf.v1.ModelService.ExportModel:output_type -> strayleaf.v1.ExportModelResponse
+	25, // [25:33] is the sub-list for method output_type
+	17, // [17:25] is the sub-list for method input_type
+	17, // [17:17] is the sub-list for extension type_name
+	17, // [17:17] is the sub-list for extension extendee
+	0,  // [0:17] is the sub-list for field type_name
 }
 
 func init() { file_strayleaf_v1_model_service_proto_init() }
@@ -1196,7 +1750,7 @@ func file_strayleaf_v1_model_service_proto_init() {
 			GoPackagePath: reflect.TypeOf(x{}).PkgPath(),
 			RawDescriptor: unsafe.Slice(unsafe.StringData(file_strayleaf_v1_model_service_proto_rawDesc), len(file_strayleaf_v1_model_service_proto_rawDesc)),
 			NumEnums:      0,
-			NumMessages:   17,
+			NumMessages:   24,
 			NumExtensions: 0,
 			NumServices:   1,
 		},

@@ -23,7 +23,9 @@ const (
 	ModelService_GetModel_FullMethodName           = "/strayleaf.v1.ModelService/GetModel"
 	ModelService_PublishModel_FullMethodName       = "/strayleaf.v1.ModelService/PublishModel"
 	ModelService_SetAlias_FullMethodName           = "/strayleaf.v1.ModelService/SetAlias"
+	ModelService_RemoveAlias_FullMethodName        = "/strayleaf.v1.ModelService/RemoveAlias"
 	ModelService_DeleteModelVersion_FullMethodName = "/strayleaf.v1.ModelService/DeleteModelVersion"
+	ModelService_ListHistory_FullMethodName        = "/strayleaf.v1.ModelService/ListHistory"
 	ModelService_ExportModel_FullMethodName        = "/strayleaf.v1.ModelService/ExportModel"
 )
 
@@ -43,8 +45,12 @@ type ModelServiceClient interface {
 	PublishModel(ctx context.Context, in *PublishModelRequest, opts ...grpc.CallOption) (*PublishModelResponse, error)
 	// SetAlias points an alias of a model at one of its versions.
 	SetAlias(ctx context.Context, in *SetAliasRequest, opts ...grpc.CallOption) (*SetAliasResponse, error)
+	// RemoveAlias removes an alias of a model.
+	RemoveAlias(ctx context.Context, in *RemoveAliasRequest, opts ...grpc.CallOption) (*RemoveAliasResponse, error)
 	// DeleteModelVersion removes one version; a version an alias points at is refused.
 	DeleteModelVersion(ctx context.Context, in *DeleteModelVersionRequest, opts ...grpc.CallOption) (*DeleteModelVersionResponse, error)
+	// ListHistory lists the store's history (publishes, alias moves, deletes), oldest first.
+	ListHistory(ctx context.Context, in *ListHistoryRequest, opts ...grpc.CallOption) (*ListHistoryResponse, error)
 	// ExportModel returns the bundle of one model version, byte for byte as published.
 	ExportModel(ctx context.Context, in *ExportModelRequest, opts ...grpc.CallOption) (*ExportModelResponse, error)
 }
@@ -97,10 +103,30 @@ func (c *modelServiceClient) SetAlias(ctx context.Context, in *SetAliasRequest, 
 	return out, nil
 }
 
+func (c *modelServiceClient) RemoveAlias(ctx context.Context, in *RemoveAliasRequest, opts ...grpc.CallOption) (*RemoveAliasResponse, error) {
+	cOpts := append([]grpc.CallOption{grpc.StaticMethod()}, opts...)
+	out := new(RemoveAliasResponse)
+	err := c.cc.Invoke(ctx, ModelService_RemoveAlias_FullMethodName, in, out, cOpts...)
+	if err != nil {
+		return nil, err
+	}
+	return out, nil
+}
+
 func (c *modelServiceClient) DeleteModelVersion(ctx context.Context, in *DeleteModelVersionRequest, opts ...grpc.CallOption) (*DeleteModelVersionResponse, error) {
 	cOpts := append([]grpc.CallOption{grpc.StaticMethod()}, opts...)
 	out := new(DeleteModelVersionResponse)
 	err := c.cc.Invoke(ctx, ModelService_DeleteModelVersion_FullMethodName, in, out, cOpts...)
+	if err != nil {
+		return nil, err
+	}
+	return out, nil
+}
+
+func (c *modelServiceClient) ListHistory(ctx context.Context, in *ListHistoryRequest, opts ...grpc.CallOption) (*ListHistoryResponse, error) {
+	cOpts := append([]grpc.CallOption{grpc.StaticMethod()}, opts...)
+	out := new(ListHistoryResponse)
+	err := c.cc.Invoke(ctx, ModelService_ListHistory_FullMethodName, in, out, cOpts...)
 	if err != nil {
 		return nil, err
 	}
@@ -133,8 +159,12 @@ type ModelServiceServer interface {
 	PublishModel(context.Context, *PublishModelRequest) (*PublishModelResponse, error)
 	// SetAlias points an alias of a model at one of its versions.
 	SetAlias(context.Context, *SetAliasRequest) (*SetAliasResponse, error)
+	// RemoveAlias removes an alias of a model.
+	RemoveAlias(context.Context, *RemoveAliasRequest) (*RemoveAliasResponse, error)
 	// DeleteModelVersion removes one version; a version an alias points at is refused.
 	DeleteModelVersion(context.Context, *DeleteModelVersionRequest) (*DeleteModelVersionResponse, error)
+	// ListHistory lists the store's history (publishes, alias moves, deletes), oldest first.
+	ListHistory(context.Context, *ListHistoryRequest) (*ListHistoryResponse, error)
 	// ExportModel returns the bundle of one model version, byte for byte as published.
 	ExportModel(context.Context, *ExportModelRequest) (*ExportModelResponse, error)
 	mustEmbedUnimplementedModelServiceServer()
@@ -159,8 +189,14 @@ func (UnimplementedModelServiceServer) PublishModel(context.Context, *PublishMod
 func (UnimplementedModelServiceServer) SetAlias(context.Context, *SetAliasRequest) (*SetAliasResponse, error) {
 	return nil, status.Error(codes.Unimplemented, "method SetAlias not implemented")
 }
+func (UnimplementedModelServiceServer) RemoveAlias(context.Context, *RemoveAliasRequest) (*RemoveAliasResponse, error) {
+	return nil, status.Error(codes.Unimplemented, "method RemoveAlias not implemented")
+}
 func (UnimplementedModelServiceServer) DeleteModelVersion(context.Context, *DeleteModelVersionRequest) (*DeleteModelVersionResponse, error) {
 	return nil, status.Error(codes.Unimplemented, "method DeleteModelVersion not implemented")
+}
+func (UnimplementedModelServiceServer) ListHistory(context.Context, *ListHistoryRequest) (*ListHistoryResponse, error) {
+	return nil, status.Error(codes.Unimplemented, "method ListHistory not implemented")
 }
 func (UnimplementedModelServiceServer) ExportModel(context.Context, *ExportModelRequest) (*ExportModelResponse, error) {
 	return nil, status.Error(codes.Unimplemented, "method ExportModel not implemented")
@@ -258,6 +294,24 @@ func _ModelService_SetAlias_Handler(srv interface{}, ctx context.Context, dec fu
 	return interceptor(ctx, in, info, handler)
 }
 
+func _ModelService_RemoveAlias_Handler(srv interface{}, ctx context.Context, dec func(interface{}) error, interceptor grpc.UnaryServerInterceptor) (interface{}, error) {
+	in := new(RemoveAliasRequest)
+	if err := dec(in); err != nil {
+		return nil, err
+	}
+	if interceptor == nil {
+		return srv.(ModelServiceServer).RemoveAlias(ctx, in)
+	}
+	info := &grpc.UnaryServerInfo{
+		Server:     srv,
+		FullMethod: ModelService_RemoveAlias_FullMethodName,
+	}
+	handler := func(ctx context.Context, req interface{}) (interface{}, error) {
+		return srv.(ModelServiceServer).RemoveAlias(ctx, req.(*RemoveAliasRequest))
+	}
+	return interceptor(ctx, in, info, handler)
+}
+
 func _ModelService_DeleteModelVersion_Handler(srv interface{}, ctx context.Context, dec func(interface{}) error, interceptor grpc.UnaryServerInterceptor) (interface{}, error) {
 	in := new(DeleteModelVersionRequest)
 	if err := dec(in); err != nil {
@@ -272,6 +326,24 @@ func _ModelService_DeleteModelVersion_Handler(srv interface{}, ctx context.Conte
 	}
 	handler := func(ctx context.Context, req interface{}) (interface{}, error) {
 		return srv.(ModelServiceServer).DeleteModelVersion(ctx, req.(*DeleteModelVersionRequest))
+	}
+	return interceptor(ctx, in, info, handler)
+}
+
+func _ModelService_ListHistory_Handler(srv interface{}, ctx context.Context, dec func(interface{}) error, interceptor grpc.UnaryServerInterceptor) (interface{}, error) {
+	in := new(ListHistoryRequest)
+	if err := dec(in); err != nil {
+		return nil, err
+	}
+	if interceptor == nil {
+		return srv.(ModelServiceServer).ListHistory(ctx, in)
+	}
+	info := &grpc.UnaryServerInfo{
+		Server:     srv,
+		FullMethod: ModelService_ListHistory_FullMethodName,
+	}
+	handler := func(ctx context.Context, req interface{}) (interface{}, error) {
+		return srv.(ModelServiceServer).ListHistory(ctx, req.(*ListHistoryRequest))
 	}
 	return interceptor(ctx, in, info, handler)
 }
@@ -318,8 +390,16 @@ var ModelService_ServiceDesc = grpc.ServiceDesc{
 			Handler:    _ModelService_SetAlias_Handler,
 		},
 		{
+			MethodName: "RemoveAlias",
+			Handler:    _ModelService_RemoveAlias_Handler,
+		},
+		{
 			MethodName: "DeleteModelVersion",
 			Handler:    _ModelService_DeleteModelVersion_Handler,
+		},
+		{
+			MethodName: "ListHistory",
+			Handler:    _ModelService_ListHistory_Handler,
 		},
 		{
 			MethodName: "ExportModel",
