@@ -183,7 +183,7 @@ func (p *Problem) Factorize(ctx context.Context, opt Options) (*Result, error) {
 		if rs == 0 {
 			init = opt.Init
 		}
-		res, err := factorizeOnce(ctx, p, opt, init, restartSeed(opt.Seed, rs), rs)
+		res, err := factorizeOnce(ctx, p, opt, init, DeriveSeed(opt.Seed, uint64(rs)), rs)
 		if err != nil {
 			return nil, fmt.Errorf("nmf: restart %d: %w", rs, err)
 		}
@@ -199,10 +199,11 @@ func (p *Problem) Factorize(ctx context.Context, opt Options) (*Result, error) {
 	return best, nil
 }
 
-// restartSeed derives the seed of restart rs from the user's seed (splitmix64 finaliser;
-// Steele, Lea & Flood 2014, from memory), so that restarts draw unrelated numbers.
-func restartSeed(seed uint64, rs int) uint64 {
-	z := seed + uint64(rs+1)*0x9e3779b97f4a7c15
+// DeriveSeed returns a seed for the stream-th use of seed (the splitmix64 finaliser; Steele, Lea
+// & Flood 2014, from memory), so that restarts, or the starts of a rank sweep, draw unrelated
+// numbers from one user seed.
+func DeriveSeed(seed, stream uint64) uint64 {
+	z := seed + (stream+1)*0x9e3779b97f4a7c15
 	z = (z ^ (z >> 30)) * 0xbf58476d1ce4e5b9
 	z = (z ^ (z >> 27)) * 0x94d049bb133111eb
 	return z ^ (z >> 31)

@@ -133,7 +133,7 @@ func SweepContext(ctx context.Context, X, M *mat.Dense, kMin, kMax, restarts int
 				jb := jobs[i]
 				o := opt
 				o.K, o.Init, o.Restarts, o.Workers = jb.k, nmf.InitRandom, 1, 1
-				o.Seed = runSeed(opt.Seed, jb.k, jb.r)
+				o.Seed = nmf.DeriveSeed(opt.Seed, uint64(jb.k)<<32|uint64(jb.r))
 				o.Progress, o.OnIteration = nil, nil
 				res, err := p.Factorize(ctx, o)
 				mu.Lock()
@@ -174,15 +174,6 @@ func SweepContext(ctx context.Context, X, M *mat.Dense, kMin, kMax, restarts int
 	elbows(out.BaseObjective, out.Ks)
 	out.Recommended, out.Reason = Recommend(out.Ks, DefaultRule())
 	return out, nil
-}
-
-// runSeed derives the seed of start r of rank k (splitmix64 finaliser, from memory).
-func runSeed(seed uint64, k, r int) uint64 {
-	z := seed ^ (uint64(k)<<32 | uint64(r))
-	z += 0x9e3779b97f4a7c15
-	z = (z ^ (z >> 30)) * 0xbf58476d1ce4e5b9
-	z = (z ^ (z >> 27)) * 0x94d049bb133111eb
-	return z ^ (z >> 31)
 }
 
 // measure computes the measures of one k from its runs.
