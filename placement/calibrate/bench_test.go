@@ -2,6 +2,7 @@ package calibrate
 
 import (
 	"fmt"
+	"syscall"
 	"testing"
 	"time"
 
@@ -32,19 +33,22 @@ func BenchmarkTrainCalibrated(b *testing.B) {
 	tr := benchTradition(b)
 	for _, restarts := range []int{1, 4} {
 		opt := model.TrainOptions{Groups: 12, Seed: 1, Restarts: restarts}
-		var plain time.Duration
+		var plain, plainCPU time.Duration
 		b.Run(fmt.Sprintf("restarts=%d/train", restarts), func(b *testing.B) {
-			start := time.Now()
+			start, cpu := time.Now(), cpuTime()
 			for i := 0; i < b.N; i++ {
 				if _, _, err := model.Train(tr.Collation, opt); err != nil {
 					b.Fatal(err)
 				}
 			}
 			plain = time.Since(start) / time.Duration(b.N)
+			plainCPU = (cpuTime() - cpu) / time.Duration(b.N)
+			b.ReportMetric(plainCPU.Seconds(), "cpu_s")
 		})
 		b.Run(fmt.Sprintf("restarts=%d/train+calibrate", restarts), func(b *testing.B) {
 			var rep *Report
 			var added time.Duration
+			cpu := cpuTime()
 			for i := 0; i < b.N; i++ {
 				var err error
 				if _, rep, err = Train(tr.Collation, opt, Options{Seed: 1}); err != nil {
@@ -53,6 +57,11 @@ func BenchmarkTrainCalibrated(b *testing.B) {
 				added += time.Duration(rep.CalibrationSeconds * float64(time.Second))
 			}
 			added /= time.Duration(b.N)
+			totalCPU := (cpuTime() - cpu) / time.Duration(b.N)
+			b.ReportMetric(totalCPU.Seconds(), "cpu_s")
+			if plainCPU > 0 {
+				b.ReportMetric(float64(totalCPU-plainCPU)/float64(plainCPU), "added_cpu_x_train")
+			}
 			b.ReportMetric(rep.ECE, "ECE")
 			b.ReportMetric(float64(rep.Samples), "fragments")
 			b.ReportMetric(rep.RefitSeconds, "refit_s")
@@ -62,4 +71,13 @@ func BenchmarkTrainCalibrated(b *testing.B) {
 			}
 		})
 	}
+}
+
+// cpuTime is the user and system CPU time of the process so far.
+func cpuTime() time.Duration {
+	var ru syscall.Rusage
+	if err := syscall.Getrusage(syscall.RUSAGE_SELF, &ru); err != nil {
+		return 0
+	}
+	return time.Duration(ru.Utime.Nano() + ru.Stime.Nano())
 }

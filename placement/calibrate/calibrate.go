@@ -62,7 +62,7 @@ type Options struct {
 	// Cuts is the number of fragments of each form cut per held-out witness and level (default 1).
 	Cuts int
 	// Witnesses is the most held-out witnesses fragments are cut from, over all folds (default
-	// 120): enough fragments for a stable map without placing every witness of a large tradition.
+	// 96): enough fragments for a stable map without placing every witness of a large tradition.
 	Witnesses int
 	// Seed seeds the fold split and the cuts.
 	Seed uint64
@@ -83,7 +83,7 @@ type Options struct {
 }
 
 // DefaultLevels are the default coverage levels of the simulated fragments.
-var DefaultLevels = []float64{0.01, 0.02, 0.03, 0.05, 0.075, 0.1, 0.15, 0.2, 0.3, 0.4, 0.6}
+var DefaultLevels = []float64{0.01, 0.02, 0.03, 0.05, 0.075, 0.1, 0.15, 0.2, 0.3, 0.45}
 
 func (o Options) withDefaults() Options {
 	if o.Folds == 0 {
@@ -96,7 +96,7 @@ func (o Options) withDefaults() Options {
 		o.Cuts = 1
 	}
 	if o.Witnesses == 0 {
-		o.Witnesses = 120
+		o.Witnesses = 96
 	}
 	if o.Penalty == 0 {
 		o.Penalty = 1
@@ -479,7 +479,7 @@ func witnessFragments(fm *model.Model, c *collation.Collation, w, fold, nu int, 
 	if err != nil || whole.BestGroup == "" {
 		return nil, nil // a witness the fold model cannot place gives no answer to aim at
 	}
-	if doubtful(fm, whole, all, ws) {
+	if doubtful(fm, whole, all) {
 		return []Sample{{Fold: fold, Witness: siglum, Form: formDoubtful}}, nil
 	}
 	rng := rand.New(rand.NewPCG(copt.Seed^mixSeed(uint64(w)), uint64(fold)+0x637574)) // "cut"
@@ -510,27 +510,35 @@ func witnessFragments(fm *model.Model, c *collation.Collation, w, fold, nu int, 
 }
 
 // doubtful reports a held-out witness whose own group is in doubt, so that its fragments have no
-// single right answer: one flagged mixed, or one with two sections placed in different groups,
-// each with a posterior of at least 0.9 under the groups' reading probabilities (the fold model
-// has no calibration yet to read a confidence from).
-func doubtful(fm *model.Model, whole *model.Placement, readings []model.Reading, ws *placement.Workspace) bool {
+// single right answer: one flagged mixed, or one with two sections whose readings give different
+// groups a posterior of at least 0.9 (model.GroupPosterior; the fold model has no calibration yet
+// to read a confidence from).
+func doubtful(fm *model.Model, whole *model.Placement, readings []model.Reading) bool {
 	if whole.Mixed {
 		return true
 	}
-	sp, err := fm.PlaceBySection(whole.Witness, readings, ws)
-	if err != nil {
-		return false // no sections: nothing more to check
-	}
-	sure := math.Log(9)
-	group := ""
-	for _, s := range sp.Sections {
-		if s.Placement == nil || s.Placement.Features.PosteriorLogOdds < sure {
+	bySection := map[string][]model.Reading{}
+	var order []string
+	for _, r := range readings {
+		s := fm.SectionOf(r.Unit)
+		if s == "" {
 			continue
 		}
-		if group != "" && s.BestGroup != group {
+		if _, ok := bySection[s]; !ok {
+			order = append(order, s)
+		}
+		bySection[s] = append(bySection[s], r)
+	}
+	group := ""
+	for _, s := range order {
+		q, err := fm.GroupPosterior(whole.Witness, bySection[s])
+		if err != nil || q[0].Share < 0.9 {
+			continue
+		}
+		if group != "" && q[0].Group != group {
 			return true
 		}
-		group = s.BestGroup
+		group = q[0].Group
 	}
 	return false
 }

@@ -2,6 +2,7 @@ package calibrate
 
 import (
 	"fmt"
+	"math"
 
 	"gonum.org/v1/gonum/mat"
 
@@ -59,13 +60,36 @@ func warmRefit(full *placement.Engine, W0 *mat.Dense, prep *prepare.Prepared, co
 	G := make([]float64, k*k)
 	cv := make([]float64, k)
 	x := make([]float64, k)
+	all := make([]float64, k*k)    // sum over the fold's witnesses of h h^T
+	cross := make([]float64, nr*k) // row r: sum over witnesses with reading r of x_rj h_j
 	for t := 0; t < steps; t++ {
-		// W-step, unit by unit: the rows of a unit share their mask, hence their Gram matrix.
+		// W-step. The rows of a unit share their mask, hence their Gram matrix: the sum of h h^T
+		// over the witnesses extant at the unit, formed as the sum over all of them less the few
+		// that have a lacuna there.
+		clear(all)
+		clear(cross)
+		for c := range cols {
+			h := H.RawMatrix()
+			for a := 0; a < k; a++ {
+				ha := h.Data[a*h.Stride+c]
+				if ha == 0 {
+					continue
+				}
+				for b := a; b < k; b++ {
+					all[a*k+b] += ha * h.Data[b*h.Stride+c]
+				}
+				for _, o := range obs[c] {
+					if o.Row >= 0 {
+						cross[o.Row*k+a] += weights[o.Row] * ha
+					}
+				}
+			}
+		}
 		for _, u := range prep.KeptUnits {
 			lo, hi := unitRows[u][0], unitRows[u][1]
-			clear(G)
+			copy(G, all)
 			for c, j := range cols {
-				if prep.M.At(lo, j) == 0 {
+				if prep.M.At(lo, j) != 0 {
 					continue
 				}
 				for a := 0; a < k; a++ {
@@ -74,24 +98,18 @@ func warmRefit(full *placement.Engine, W0 *mat.Dense, prep *prepare.Prepared, co
 						continue
 					}
 					for b := a; b < k; b++ {
-						G[a*k+b] += ha * H.At(b, c)
+						G[a*k+b] -= ha * H.At(b, c)
 					}
 				}
 			}
 			for a := 0; a < k; a++ {
+				G[a*k+a] = math.Max(0, G[a*k+a])
 				for b := 0; b < a; b++ {
 					G[a*k+b] = G[b*k+a]
 				}
 			}
 			for r := lo; r < hi; r++ {
-				clear(cv)
-				for c, j := range cols {
-					if v := prep.X.At(r, j); v != 0 {
-						for a := 0; a < k; a++ {
-							cv[a] += v * H.At(a, c)
-						}
-					}
-				}
+				copy(cv, cross[r*k:r*k+k])
 				if err := solver.SolveGram(G, cv, x); err != nil {
 					return nil, nil, fmt.Errorf("refitting profile row %d: %w", r, err)
 				}

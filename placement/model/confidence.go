@@ -42,10 +42,10 @@ type Features struct {
 }
 
 // Resamples is the number of bootstrap resamples behind Features.Stability.
-const Resamples = 16
+const Resamples = 12
 
 // BootstrapBlocks is the most blocks of units the stability bootstrap resamples (see stability).
-const BootstrapBlocks = 32
+const BootstrapBlocks = 20
 
 // LogOddsClip bounds Features.LogOdds.
 const LogOddsClip = 30

@@ -443,3 +443,36 @@ func hashString(s string) uint64 {
 	}
 	return h
 }
+
+// GroupPosterior returns q, the distribution over the groups given the readings (see the notes
+// on what to check next), most probable first. Readings are checked as for Place; none gives
+// the prior.
+func (m *Model) GroupPosterior(witness string, readings []Reading) ([]GroupShare, error) {
+	g := m.guide()
+	q := append([]float64(nil), g.logPrior...)
+	if len(readings) > 0 {
+		obs, _, err := m.Observe(witness, readings, nil)
+		if err != nil {
+			return nil, err
+		}
+		for _, o := range obs {
+			g.logLik(q, o.Unit, o.Row, m)
+		}
+	}
+	normaliseLog(q)
+	out := make([]GroupShare, len(q))
+	for j, v := range q {
+		out[j] = GroupShare{Group: m.groupIDs[j], Share: v}
+	}
+	sort.SliceStable(out, func(a, b int) bool { return out[a].Share > out[b].Share })
+	return out, nil
+}
+
+// SectionOf returns the section label of unit id ("" if it has none or is unknown).
+func (m *Model) SectionOf(id string) string {
+	u, ok := m.unitIndex[id]
+	if !ok {
+		return ""
+	}
+	return m.pb.Units[u].Section
+}
