@@ -14,8 +14,8 @@ import (
 )
 
 // Plot writes an SVG picture of the sweep: four panels over k (the best objective; the
-// cophenetic correlation and the dispersion; the mean sparseness of W's and of H's columns; the
-// elbow score), with the recommended k marked by a dashed line in each.
+// cophenetic correlation and the dispersion; the mean Hoyer sparseness of W's and of H's
+// columns; the elbow score), with the recommended k marked by a dashed line in each.
 func (r *SweepResult) Plot(w io.Writer) error {
 	if len(r.Ks) == 0 {
 		return fmt.Errorf("rank plot: the sweep has no k")
@@ -30,38 +30,39 @@ func (r *SweepResult) Plot(w io.Writer) error {
 		return xys
 	}
 	type line struct {
-		name  string
 		data  plotter.XYs
 		color color.Color
 	}
 	blue := color.RGBA{R: 31, G: 119, B: 180, A: 255}
 	orange := color.RGBA{R: 255, G: 127, B: 14, A: 255}
+	// The series are named in the panel titles, by colour, rather than in legends that would
+	// cover the lines.
 	panels := []struct {
 		title, ylabel string
 		lines         []line
 	}{
-		{"Fit", "objective ||M.*(X-WH)||^2", []line{{"best objective", series(func(k KResult) float64 { return k.Objective }), blue}}},
-		{"Stability over starts", "coefficient", []line{
-			{"cophenetic correlation", series(func(k KResult) float64 { return k.Cophenetic }), blue},
-			{"dispersion", series(func(k KResult) float64 { return k.Dispersion }), orange},
+		{"Fit: best objective ||M .* (X - WH)||^2 over the starts", "objective", []line{{series(func(k KResult) float64 { return k.Objective }), blue}}},
+		{"Stability: cophenetic correlation (blue), dispersion (orange)", "coefficient", []line{
+			{series(func(k KResult) float64 { return k.Cophenetic }), blue},
+			{series(func(k KResult) float64 { return k.Dispersion }), orange},
 		}},
-		{"Sparseness (Hoyer)", "mean over columns", []line{
-			{"W (profiles)", series(func(k KResult) float64 { return k.SparsenessW }), blue},
-			{"H (coefficients)", series(func(k KResult) float64 { return k.SparsenessH }), orange},
+		{"Hoyer sparseness: columns of W (blue), of H (orange)", "mean sparseness", []line{
+			{series(func(k KResult) float64 { return k.SparsenessW }), blue},
+			{series(func(k KResult) float64 { return k.SparsenessH }), orange},
 		}},
-		{"Elbow score", "gain / mean gain of larger k", []line{{"elbow score", series(func(k KResult) float64 { return k.Elbow }), blue}}},
+		{"Elbow score: gain of k / mean gain of larger k", "elbow score", []line{{series(func(k KResult) float64 { return k.Elbow }), blue}}},
 	}
 	plots := make([][]*plot.Plot, len(panels))
 	for i, pn := range panels {
 		p := plot.New()
 		p.Title.Text = pn.title
 		if i == 0 && r.Recommended > 0 {
-			p.Title.Text = fmt.Sprintf("%s (recommended k = %d)", pn.title, r.Recommended)
+			p.Title.Text = fmt.Sprintf("Recommended k = %d (dashed line)\n%s", r.Recommended, pn.title)
 		}
 		p.X.Label.Text = "k (groups)"
 		p.Y.Label.Text = pn.ylabel
 		p.X.Tick.Marker = integerTicks{}
-		p.Legend.Top = true
+		p.X.Min, p.X.Max = float64(r.Ks[0].K), float64(r.Ks[len(r.Ks)-1].K)
 		lo, hi := math.Inf(1), math.Inf(-1)
 		for _, ln := range pn.lines {
 			if len(ln.data) == 0 {
@@ -73,7 +74,6 @@ func (r *SweepResult) Plot(w io.Writer) error {
 			}
 			l.Color, s.Color = ln.color, ln.color
 			p.Add(l, s)
-			p.Legend.Add(ln.name, l, s)
 			for _, xy := range ln.data {
 				lo, hi = math.Min(lo, xy.Y), math.Max(hi, xy.Y)
 			}
@@ -89,9 +89,6 @@ func (r *SweepResult) Plot(w io.Writer) error {
 			mark.Color = color.Gray{Y: 90}
 			mark.Dashes = []vg.Length{vg.Points(4), vg.Points(3)}
 			p.Add(mark)
-			if i == 0 {
-				p.Legend.Add(fmt.Sprintf("recommended k = %d", r.Recommended), mark)
-			}
 		}
 		plots[i] = []*plot.Plot{p}
 	}
