@@ -96,10 +96,16 @@ type calibrationMap struct {
 }
 
 // parseCalibration returns the usable calibration of a model, or nil if it has none or one this
-// build does not understand (then the provisional confidence is used).
+// build does not understand: another method, a feature it does not compute, another number of
+// resamples, or thresholds and values out of order (then the provisional confidence is used).
 func parseCalibration(c *pb.Calibration) *calibrationMap {
 	if c == nil || c.Method != MethodLogisticIsotonic || len(c.Coefficients) != len(c.Features)+1 ||
 		len(c.Thresholds) == 0 || len(c.Thresholds) != len(c.Values) {
+		return nil
+	}
+	// The stability feature of a map learnt with another number of resamples is not this
+	// build's stability.
+	if c.Resamples != 0 && c.Resamples != Resamples {
 		return nil
 	}
 	if _, err := (Features{}).Values(c.Features); err != nil {

@@ -428,3 +428,42 @@ func TestPlaceBySectionNeedsSections(t *testing.T) {
 		t.Errorf("%+v, %v", sp, err)
 	}
 }
+
+// A Model is safe for concurrent use: placements and suggestions from many goroutines on a
+// freshly decoded model (whose derived data is built on first use) agree with one made alone.
+func TestConcurrentGuidance(t *testing.T) {
+	m0, tr := smallModel(t)
+	m, err := FromProto(proto.Clone(m0.Proto()).(*pb.Model))
+	if err != nil {
+		t.Fatal(err)
+	}
+	c := tr.Collation
+	rd := rowReadings(c, simulate.CutRange(c.Row(2), 40, 10))
+	want, err := m0.Place("w", rd, nil)
+	if err != nil {
+		t.Fatal(err)
+	}
+	var wg sync.WaitGroup
+	errs := make(chan error, 8)
+	for i := 0; i < 8; i++ {
+		wg.Add(1)
+		go func() {
+			defer wg.Done()
+			p, err := m.Place("w", rd, nil)
+			if err == nil && (p.Confidence != want.Confidence || p.Features.Stability != want.Features.Stability) {
+				err = errors.New("concurrent placement differs")
+			}
+			if err == nil {
+				_, err = m.Suggest("w", rd, SuggestOptions{Top: 3})
+			}
+			errs <- err
+		}()
+	}
+	wg.Wait()
+	close(errs)
+	for err := range errs {
+		if err != nil {
+			t.Error(err)
+		}
+	}
+}

@@ -240,8 +240,8 @@ func (m *Model) ReadingProbabilities(u int) (labels []string, probs [][]float64)
 	return labels, probs
 }
 
-// informativeCoverage is the share of the model's total informativeness carried by the units u
-// for which covered(u) holds.
+// coverage is the share of the model's total informativeness carried by the given units (each
+// listed once).
 func (g *guide) coverage(units []int) float64 {
 	if g.infoTotal <= 0 {
 		return 0
