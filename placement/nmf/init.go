@@ -18,7 +18,8 @@ const (
 )
 
 // nndsvdEps is the threshold below which NNDSVD entries are set to zero, as scikit-learn's
-// _initialize_nmf does (its eps=1e-6).
+// _initialize_nmf does (its eps=1e-6). Factorize scales it by sqrt(max X), the scale of the
+// factors, so that data of small magnitude do not lose whole components.
 const nndsvdEps = 1e-6
 
 // exactSVDLimit is the largest min(m, n) for which the initialisation uses the exact thin SVD;
@@ -41,7 +42,10 @@ const exactSVDLimit = 200
 // construction does not depend on the sign the SVD chose (except for an exact tie m+ = m-). A
 // pair whose chosen parts are zero (s_j = 0, or no positive part at all) gives a zero component.
 // k must be between 1 and min(m, n).
-func NNDSVD(X *mat.Dense, k int) (W, H *mat.Dense, err error) {
+func NNDSVD(X *mat.Dense, k int) (W, H *mat.Dense, err error) { return nndsvd(X, k, nndsvdEps) }
+
+// nndsvd is NNDSVD with the zero threshold eps.
+func nndsvd(X *mat.Dense, k int, eps float64) (W, H *mat.Dense, err error) {
 	m, n := X.Dims()
 	if k < 1 || k > min(m, n) {
 		return nil, nil, fmt.Errorf("nndsvd: k is %d; expected 1 <= k <= min(m, n) = %d", k, min(m, n))
@@ -54,12 +58,13 @@ func NNDSVD(X *mat.Dense, k int) (W, H *mat.Dense, err error) {
 	svd.UTo(&U)
 	svd.VTo(&V)
 	s := svd.Values(nil)
-	W, H = nndsvdFromSVD(U.Slice(0, m, 0, k).(*mat.Dense), s[:k], V.Slice(0, n, 0, k).(*mat.Dense))
+	W, H = nndsvdFromSVD(U.Slice(0, m, 0, k).(*mat.Dense), s[:k], V.Slice(0, n, 0, k).(*mat.Dense), eps)
 	return W, H, nil
 }
 
-// nndsvdFromSVD builds the NNDSVD factors from the leading k singular triplets (U m x k, V n x k).
-func nndsvdFromSVD(U *mat.Dense, s []float64, V *mat.Dense) (W, H *mat.Dense) {
+// nndsvdFromSVD builds the NNDSVD factors from the leading k singular triplets (U m x k, V n x k)
+// and sets entries below eps to zero.
+func nndsvdFromSVD(U *mat.Dense, s []float64, V *mat.Dense, eps float64) (W, H *mat.Dense) {
 	m, k := U.Dims()
 	n, _ := V.Dims()
 	W = mat.NewDense(m, k, nil)
@@ -105,7 +110,7 @@ func nndsvdFromSVD(U *mat.Dense, s []float64, V *mat.Dense) (W, H *mat.Dense) {
 	for _, d := range []*mat.Dense{W, H} {
 		raw := d.RawMatrix()
 		for i, v := range raw.Data {
-			if v < nndsvdEps {
+			if v < eps {
 				raw.Data[i] = 0
 			}
 		}
@@ -137,8 +142,7 @@ func RandomizedNNDSVD(X *mat.Dense, k int, seed uint64) (W, H *mat.Dense, err er
 	if k < 1 || k > min(m, n) {
 		return nil, nil, fmt.Errorf("nndsvd: k is %d; expected 1 <= k <= min(m, n) = %d", k, min(m, n))
 	}
-	a := sparseFromDense(X)
-	return randomizedNNDSVD(a, m, n, k, seed, 1)
+	return randomizedNNDSVD(sparseFromDense(X), m, n, k, seed, 1, nndsvdEps)
 }
 
 // linearOp is a matrix known by its products with row-major blocks of l columns: mul sets
@@ -148,7 +152,7 @@ type linearOp interface {
 	mulT(z, b []float64, l, workers int)
 }
 
-func randomizedNNDSVD(a linearOp, m, n, k int, seed uint64, workers int) (W, H *mat.Dense, err error) {
+func randomizedNNDSVD(a linearOp, m, n, k int, seed uint64, workers int, eps float64) (W, H *mat.Dense, err error) {
 	l := min(k+10, m, n)
 	const q = 2
 	rng := newRand(seed, streamSVD)
@@ -179,7 +183,7 @@ func randomizedNNDSVD(a linearOp, m, n, k int, seed uint64, workers int) (W, H *
 	s := svd.Values(nil)
 	var u mat.Dense
 	u.Mul(mat.NewDense(m, l, y), &ub)
-	W, H = nndsvdFromSVD(u.Slice(0, m, 0, k).(*mat.Dense), s[:k], v.Slice(0, n, 0, k).(*mat.Dense))
+	W, H = nndsvdFromSVD(u.Slice(0, m, 0, k).(*mat.Dense), s[:k], v.Slice(0, n, 0, k).(*mat.Dense), eps)
 	return W, H, nil
 }
 

@@ -217,10 +217,11 @@ func factorizeOnce(ctx context.Context, p *Problem, opt Options, init string, se
 	case InitNNDSVD:
 		var W, H *mat.Dense
 		var err error
+		eps := nndsvdEps * math.Sqrt(p.maxValue)
 		if min(p.m, p.n) <= exactSVDLimit {
-			W, H, err = NNDSVD(filledDense(p), k)
+			W, H, err = nndsvd(filledDense(p), k, eps)
 		} else {
-			W, H, err = randomizedNNDSVD(&filledOp{p: p, fill: rowFill(p)}, p.m, p.n, k, opt.Seed, opt.Workers)
+			W, H, err = randomizedNNDSVD(&filledOp{p: p, fill: rowFill(p)}, p.m, p.n, k, opt.Seed, opt.Workers, eps)
 		}
 		if err != nil {
 			return nil, err

@@ -325,6 +325,30 @@ func TestDegenerateData(t *testing.T) {
 	}
 }
 
+// TestSmallScale: data scaled down by 1e-12 give the same factorisation scaled down alike (the
+// NNDSVD's zero threshold follows the scale of the data).
+func TestSmallScale(t *testing.T) {
+	X := lowRank(17, 25, 20, 3, 0.1)
+	ref, err := Factorize(X, nil, DefaultOptions(3))
+	if err != nil {
+		t.Fatal(err)
+	}
+	var tiny mat.Dense
+	tiny.Scale(1e-12, X)
+	res, err := Factorize(&tiny, nil, DefaultOptions(3))
+	if err != nil {
+		t.Fatal(err)
+	}
+	if r := res.Objective / ref.Objective; math.Abs(r-1e-24) > 1e-3*1e-24 {
+		t.Errorf("objective %g at scale 1e-12; %g at scale 1 (ratio %g)", res.Objective, ref.Objective, r)
+	}
+	for g := 0; g < 3; g++ {
+		if mat.Norm(res.H.RowView(g), 2) == 0 {
+			t.Errorf("component %d lost at small scale", g)
+		}
+	}
+}
+
 func TestBadInput(t *testing.T) {
 	X := lowRank(16, 5, 4, 2, 0.1)
 	bad := func(name string, X, M *mat.Dense, opt Options) {

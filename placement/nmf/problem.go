@@ -34,6 +34,7 @@ type Problem struct {
 	// an entry): then c_j = W^T xm_j is a plain sum of rows of diag(rowConst) W.
 	constRows bool
 	total     float64 // ||XM||_F^2
+	maxValue  float64 // largest observed cell
 	observed  int     // number of observed cells
 	mask      []byte  // mask[r*n+j] = 1 if cell (r, j) is observed, row-major
 
@@ -127,6 +128,9 @@ func NewProblem(X, M *mat.Dense) (*Problem, error) {
 		return nil
 	})
 	p.xm = newSparseRows(m, n, rowStart, rowCol, rowVal)
+	for _, v := range rowVal {
+		p.maxValue = math.Max(p.maxValue, v)
+	}
 	p.rowConst = make([]float64, m)
 	p.constRows = true
 	for r := 0; r < m; r++ {
