@@ -11,12 +11,13 @@ const Bins = 10
 // Bin is one confidence bin of a reliability diagram.
 type Bin struct {
 	// Lo and Hi bound the bin's confidences: (Lo, Hi], the first bin [0, Hi].
-	Lo, Hi float64
+	Lo float64 `json:"lo"`
+	Hi float64 `json:"hi"`
 	// Count is the number of placements in the bin; Confidence their mean confidence and
 	// Accuracy the share of them that were correct.
-	Count      int
-	Confidence float64
-	Accuracy   float64
+	Count      int     `json:"count"`
+	Confidence float64 `json:"confidence"`
+	Accuracy   float64 `json:"accuracy"`
 }
 
 // Reliability sorts confidences into Bins equal-width bins and returns the bins and the expected

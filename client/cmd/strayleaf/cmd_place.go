@@ -20,18 +20,28 @@ func init() {
 
 // placementJSON is one line of `strayleaf place --json`. Its field names are a contract.
 type placementJSON struct {
-	Witness            string      `json:"witness"`
-	Model              string      `json:"model,omitempty"`
-	BestGroup          string      `json:"best_group"`
-	Groups             []shareOut  `json:"groups"`
-	Confidence         float64     `json:"confidence"`
-	CoveredUnits       int         `json:"covered_units"`
-	UsedUnits          int         `json:"used_units"`
-	UnknownReadings    []string    `json:"unknown_readings"`
-	UninformativeUnits []string    `json:"uninformative_units"`
-	RelativeResidual   float64     `json:"relative_residual"`
-	Error              string      `json:"error,omitempty"`
-	Extra              interface{} `json:"-"`
+	Witness            string     `json:"witness"`
+	Model              string     `json:"model,omitempty"`
+	BestGroup          string     `json:"best_group"`
+	Groups             []shareOut `json:"groups"`
+	Confidence         float64    `json:"confidence"`
+	CoveredUnits       int        `json:"covered_units"`
+	UsedUnits          int        `json:"used_units"`
+	UnknownReadings    []string   `json:"unknown_readings"`
+	UninformativeUnits []string   `json:"uninformative_units"`
+	RelativeResidual   float64    `json:"relative_residual"`
+	// InformativeCoverage, Calibrated, Mixed, Mixture and Nearest: see place_guidance.go.
+	InformativeCoverage float64       `json:"informative_coverage"`
+	Calibrated          bool          `json:"calibrated"`
+	Mixed               bool          `json:"mixed"`
+	Mixture             *mixtureJSON  `json:"mixture,omitempty"`
+	Nearest             []nearestJSON `json:"nearest,omitempty"`
+	// Sections, BlockMixture and Changes are given with --by-section.
+	Sections     []sectionJSON `json:"sections,omitempty"`
+	BlockMixture *bool         `json:"block_mixture,omitempty"`
+	Changes      []changeJSON  `json:"block_changes,omitempty"`
+	Error        string        `json:"error,omitempty"`
+	Extra        interface{}   `json:"-"`
 }
 
 type shareOut struct {
@@ -68,6 +78,7 @@ func placementOut(p *model.Placement, ref string) placementJSON {
 	for _, g := range p.Groups {
 		out.Groups = append(out.Groups, shareOut{g.Group, g.Share})
 	}
+	addGuidance(&out, p)
 	return out
 }
 
@@ -125,6 +136,7 @@ func runPlace(ctx context.Context, args []string, stdout, stderr io.Writer) erro
 	copt := addCollationFlags(fs)
 	asJSON := fs.Bool("json", false, "print JSON lines, one object per witness (same as --format json)")
 	outFormat := fs.String("format", "table", "output: table, json (JSON lines), csv or tei")
+	bySection := fs.Bool("by-section", false, "also place each section's readings separately and report a change of exemplar (block mixture)")
 	if err := fs.Parse(args); err != nil {
 		return err
 	}
@@ -146,9 +158,12 @@ func runPlace(ctx context.Context, args []string, stdout, stderr io.Writer) erro
 		if src.ref == "" {
 			return usageError("place", "--server needs --model REF")
 		}
+		if *bySection {
+			return usageError("place", "--by-section places locally: give --bundle or --store, not --server")
+		}
 		results, err = placeRemote(ctx, remote, src.ref, witnessesFromCollation(in.C))
 	} else {
-		results, err = placeLocal(&src, witnessesFromCollation(in.C))
+		results, err = placeLocal(&src, witnessesFromCollation(in.C), *bySection)
 	}
 	if err != nil {
 		return err
@@ -208,7 +223,7 @@ func failedPlacement(witness, ref, msg string) placementJSON {
 }
 
 // placeLocal places every witness against a model from a bundle file or a local store.
-func placeLocal(src *modelSource, witnesses []witnessInput) ([]placementJSON, error) {
+func placeLocal(src *modelSource, witnesses []witnessInput, bySection bool) ([]placementJSON, error) {
 	m, ref, done, err := src.load()
 	if err != nil {
 		return nil, err
@@ -222,7 +237,16 @@ func placeLocal(src *modelSource, witnesses []witnessInput) ([]placementJSON, er
 			results = append(results, failedPlacement(w.Witness, ref, err.Error()))
 			continue
 		}
-		results = append(results, placementOut(p, ref))
+		out := placementOut(p, ref)
+		if bySection {
+			sp, err := m.PlaceBySection(w.Witness, w.Readings, ws)
+			if err != nil {
+				results = append(results, failedPlacement(w.Witness, ref, "by section: "+err.Error()))
+				continue
+			}
+			addSections(&out, sp)
+		}
+		results = append(results, out)
 	}
 	return results, nil
 }

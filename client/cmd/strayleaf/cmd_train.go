@@ -1,12 +1,14 @@
 package main
 
 import (
+	"bytes"
 	"context"
 	"fmt"
 	"io"
 	"os"
 	"text/tabwriter"
 
+	"strayleaf/placement/calibrate"
 	"strayleaf/placement/model"
 	"strayleaf/placement/prepare"
 	pb "strayleaf/proto/strayleaf/v1"
@@ -58,10 +60,17 @@ type calibrationSummaryJSON struct {
 	Method string  `json:"method"`
 	ECE    float64 `json:"expected_calibration_error"`
 	N      int32   `json:"samples"`
+	// Folds, Seconds (the time calibration took), Reliability (the bins behind the ECE) and
+	// Doubtful (held-out witnesses left out, their own group in doubt) come from the run.
+	Folds        int             `json:"folds,omitempty"`
+	Seconds      float64         `json:"seconds,omitempty"`
+	TrainSeconds float64         `json:"-"`
+	Reliability  []calibrate.Bin `json:"reliability,omitempty"`
+	Doubtful     int             `json:"doubtful_witnesses,omitempty"`
 }
 
 func runTrain(ctx context.Context, args []string, stdout, stderr io.Writer) error {
-	fs := newFlags("train", "train --collation FILE --groups K [--seed N] [--restarts R] [--no-idf] [--min-support N] [--min-coverage F] --out BUNDLE [--json]", stderr)
+	fs := newFlags("train", "train --collation FILE --groups K [--seed N] [--restarts R] [--no-idf] [--min-support N] [--min-coverage F] [--no-calibration] [--reliability-plot SVG] --out BUNDLE [--json]", stderr)
 	path := fs.String("collation", "", "collation file (long CSV or TEI P5 .xml)")
 	format := fs.String("format", "", "collation format: csv or tei (default: by extension)")
 	copt := addCollationFlags(fs)
@@ -73,6 +82,9 @@ func runTrain(ctx context.Context, args []string, stdout, stderr io.Writer) erro
 	fs.IntVar(&popt.MinSupport, "min-support", popt.MinSupport, "least witnesses a reading needs to be kept (fewer: singular, set aside)")
 	fs.Float64Var(&popt.MinCoverage, "min-coverage", popt.MinCoverage, "least share of kept units a witness must be extant at to be trained on")
 	out := fs.String("out", "", "bundle file to write")
+	noCal := fs.Bool("no-calibration", false, "skip calibrating the confidence (K-fold refits and simulated fragments); placements then carry a provisional, uncalibrated confidence")
+	folds := fs.Int("calibration-folds", 3, "K, the refits the confidence is calibrated by")
+	plotPath := fs.String("reliability-plot", "", "write the calibration's reliability diagram to this SVG file")
 	asJSON := fs.Bool("json", false, "print one JSON object")
 	quiet := fs.Bool("quiet", false, "no progress on the terminal")
 	if err := fs.Parse(args); err != nil {
@@ -92,9 +104,27 @@ func runTrain(ctx context.Context, args []string, stdout, stderr io.Writer) erro
 		return err
 	}
 	prog := newProgress(stderr, "training", *quiet)
-	m, _, err := trainModel(src, model.TrainOptions{Groups: *k, Prepare: popt, Seed: *seed, Restarts: *restarts, Progress: prog.update})
+	topt := model.TrainOptions{Groups: *k, Prepare: popt, Seed: *seed, Restarts: *restarts, Progress: prog.update}
+	m, prep, err := trainModel(src, topt)
 	if err != nil {
 		return err
+	}
+	var cal *calibrate.Report
+	if !*noCal {
+		if cal, err = calibrate.CalibrateContext(ctx, m, prep, topt, calibrate.Options{Folds: *folds, Seed: *seed}); err != nil {
+			return fmt.Errorf("calibrating the confidence on %s: %w (use --no-calibration to skip)", src.Path, err)
+		}
+		if *plotPath != "" {
+			var buf bytes.Buffer
+			if err := cal.Plot(&buf); err != nil {
+				return err
+			}
+			if err := writeFileAtomic(*plotPath, buf.Bytes()); err != nil {
+				return err
+			}
+		}
+	} else if *plotPath != "" {
+		return usageError("train", "--reliability-plot needs the calibration (drop --no-calibration)")
 	}
 	b, err := model.EncodeBundle(m)
 	if err != nil {
@@ -104,6 +134,11 @@ func runTrain(ctx context.Context, args []string, stdout, stderr io.Writer) erro
 		return err
 	}
 	rep := trainReport(m, src)
+	if cal != nil && rep.Calibration != nil {
+		rep.Calibration.Folds, rep.Calibration.Seconds, rep.Calibration.TrainSeconds = cal.Folds, cal.CalibrationSeconds, cal.TrainSeconds
+		rep.Calibration.Reliability = cal.Bins
+		rep.Calibration.Doubtful = len(cal.Doubtful)
+	}
 	rep.Bundle = *out
 	rep.BundleSHA256 = sha256Hex(b)
 	if *asJSON {
