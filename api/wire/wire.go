@@ -120,99 +120,135 @@ func appendString(b []byte, num protowire.Number, s string) []byte {
 // errFallback sends a message to the standard decoder.
 var errFallback = errors.New("wire: not handled by the fast decoder")
 
+// tag reads a field tag; one-byte tags (field numbers up to 15) take the short way.
+func tag(b []byte) (protowire.Number, protowire.Type, int) {
+	if len(b) > 0 && b[0] < 0x80 && b[0] >= 8 {
+		return protowire.Number(b[0] >> 3), protowire.Type(b[0] & 7), 1
+	}
+	num, typ, n := protowire.ConsumeTag(b)
+	if n >= 0 && num > protowire.MaxValidNumber {
+		return 0, 0, -1
+	}
+	return num, typ, n
+}
+
+// bytesField reads a length-delimited value: its offset from b and its end, or -1.
+func bytesField(b []byte) (start, end int) {
+	if len(b) > 0 && b[0] < 0x80 {
+		if l := int(b[0]); 1+l <= len(b) {
+			return 1, 1 + l
+		}
+		return -1, -1
+	}
+	v, n := protowire.ConsumeBytes(b)
+	if n < 0 {
+		return -1, -1
+	}
+	return n - len(v), n
+}
+
 // decodeRequest decodes buf, which it keeps: the strings point into it.
 func decodeRequest(buf []byte, model, witness *string, readings *[]*pb.WitnessReading) error {
 	if len(buf) == 0 {
 		return nil
 	}
 	all := unsafe.String(&buf[0], len(buf))
-	// First pass: count the readings, so that they are allocated at once.
+	// First pass: check the framing and count the readings, so that they are allocated at once.
 	n := 0
-	for rest := buf; len(rest) > 0; {
-		num, typ, tl := protowire.ConsumeTag(rest)
-		if tl < 0 || num > protowire.MaxValidNumber {
+	for off := 0; off < len(buf); {
+		num, typ, tl := tag(buf[off:])
+		if tl < 0 {
 			return errFallback
 		}
-		vl := protowire.ConsumeFieldValue(num, typ, rest[tl:])
+		off += tl
+		if typ == protowire.BytesType {
+			_, end := bytesField(buf[off:])
+			if end < 0 {
+				return errFallback
+			}
+			if num == fieldReadings {
+				n++
+			}
+			off += end
+			continue
+		}
+		vl := protowire.ConsumeFieldValue(num, typ, buf[off:])
 		if vl < 0 {
 			return errFallback
 		}
-		if num == fieldReadings && typ == protowire.BytesType {
-			n++
-		}
-		rest = rest[tl+vl:]
+		off += vl
 	}
 	backing := make([]pb.WitnessReading, n)
 	ptrs := make([]*pb.WitnessReading, n)
 	i := 0
-	str := func(off, l int) (string, error) {
-		s := all[off : off+l]
-		if !utf8.ValidString(s) {
-			return "", errFallback
-		}
-		return s, nil
-	}
 	for off := 0; off < len(buf); {
-		num, typ, tl := protowire.ConsumeTag(buf[off:])
+		num, typ, tl := tag(buf[off:])
 		off += tl
-		switch {
-		case (num == fieldModel || num == fieldWitness || num == fieldReadings) && typ != protowire.BytesType:
+		if num != fieldModel && num != fieldWitness && num != fieldReadings {
+			if typ == protowire.BytesType {
+				_, end := bytesField(buf[off:])
+				off += end
+			} else {
+				off += protowire.ConsumeFieldValue(num, typ, buf[off:])
+			}
+			continue
+		}
+		if typ != protowire.BytesType {
 			return errFallback
-		case num == fieldModel || num == fieldWitness:
-			v, vl := protowire.ConsumeBytes(buf[off:])
-			s, err := str(off+vl-len(v), len(v))
-			if err != nil {
-				return err
+		}
+		vs, ve := bytesField(buf[off:])
+		start, end := off+vs, off+ve
+		off = end
+		if num != fieldReadings {
+			s := all[start:end]
+			if !utf8.ValidString(s) {
+				return errFallback
 			}
 			if num == fieldModel {
 				*model = s
 			} else {
 				*witness = s
 			}
-			off += vl
-		case num == fieldReadings:
-			v, vl := protowire.ConsumeBytes(buf[off:])
-			start := off + vl - len(v)
-			r := &backing[i]
-			for p := 0; p < len(v); {
-				rn, rt, rtl := protowire.ConsumeTag(v[p:])
-				if rtl < 0 || rn > protowire.MaxValidNumber {
-					return errFallback
-				}
-				p += rtl
-				if (rn == fieldUnit || rn == fieldReading) && rt == protowire.BytesType {
-					s, sl := protowire.ConsumeBytes(v[p:])
-					if sl < 0 {
-						return errFallback
-					}
-					val, err := str(start+p+sl-len(s), len(s))
-					if err != nil {
-						return err
-					}
-					if rn == fieldUnit {
-						r.Unit = val
-					} else {
-						r.Reading = val
-					}
-					p += sl
-					continue
-				}
+			continue
+		}
+		r := &backing[i]
+		for p := start; p < end; {
+			rn, rt, rtl := tag(buf[p:end])
+			if rtl < 0 {
+				return errFallback
+			}
+			p += rtl
+			if rt != protowire.BytesType {
 				if rn == fieldUnit || rn == fieldReading {
 					return errFallback
 				}
 				// Unknown fields are skipped (protobuf keeps them; nothing here reads them).
-				fl := protowire.ConsumeFieldValue(rn, rt, v[p:])
+				fl := protowire.ConsumeFieldValue(rn, rt, buf[p:end])
 				if fl < 0 {
 					return errFallback
 				}
 				p += fl
+				continue
 			}
-			ptrs[i] = r
-			i++
-			off += vl
-		default:
-			off += protowire.ConsumeFieldValue(num, typ, buf[off:])
+			fs, fe := bytesField(buf[p:end])
+			if fe < 0 {
+				return errFallback
+			}
+			if rn == fieldUnit || rn == fieldReading {
+				val := all[p+fs : p+fe]
+				if !utf8.ValidString(val) {
+					return errFallback
+				}
+				if rn == fieldUnit {
+					r.Unit = val
+				} else {
+					r.Reading = val
+				}
+			}
+			p += fe
 		}
+		ptrs[i] = r
+		i++
 	}
 	*readings = ptrs
 	return nil
