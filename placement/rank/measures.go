@@ -4,11 +4,15 @@
 //
 // The measures, for each k:
 //
-//   - the objective ||M .* (X - W H)||_F^2 of the best start (it always falls as k grows);
+//   - the objective ||M .* (X - W H)||_F^2 of the best start (it normally falls as k grows);
 //   - the mean Hoyer sparseness of the columns of W (group profiles) and of H (witnesses'
 //     coefficients) of the best start;
 //   - the consensus matrix over the starts and its cophenetic correlation (Brunet et al. 2004);
 //   - the dispersion of the consensus matrix (Kim & Park 2007).
+//
+// Recommend turns them into a choice of k: the stable k (consensus high) whose objective gain
+// stands out most from the gains of larger k. Sweep runs the starts in parallel, one per core,
+// and its result does not depend on the number of cores.
 package rank
 
 import (

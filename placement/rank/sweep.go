@@ -68,11 +68,12 @@ func SweepOptions() nmf.Options {
 // Sweep factorises X (mask M) for every k from kMin to kMax from restarts random starts each,
 // measures each k (package doc) and recommends one (Recommend with DefaultRule). To measure the
 // gain of kMin it also factorises kMin - 1 (if kMin > 1) from as many starts. opt gives the NMF
-// settings (tolerance, iteration cap, seed, workers; start from SweepOptions); its K, Init,
-// Restarts, Progress and OnIteration are set by Sweep. Start r of rank k is a separate run from random factors seeded from opt.Seed, k and
-// r; the runs are spread over opt.Workers goroutines (all cores by default), each run on one, so
-// the result depends only on the data and the options, not on the number of workers. progress,
-// if set, is called after each run with the number done and the total.
+// settings (tolerance, iteration cap, seed, workers; start from SweepOptions); Sweep sets its K,
+// Init, Restarts, Progress and OnIteration. Start r of rank k is a separate run from random
+// factors seeded from opt.Seed, k and r; the runs are spread over opt.Workers goroutines (all
+// cores by default), each run on one, so the result depends only on the data and the options,
+// not on the number of workers. progress, if set, is called after each run with the number done
+// and the total.
 func Sweep(X, M *mat.Dense, kMin, kMax, restarts int, opt nmf.Options, progress func(done, total int)) (*SweepResult, error) {
 	return SweepContext(context.Background(), X, M, kMin, kMax, restarts, opt, progress)
 }
