@@ -193,10 +193,10 @@ func TestPlaceStreamThousandWitnessesWithBadOnes(t *testing.T) {
 		t.Fatalf("after the last answer: %v; want EOF", err)
 	}
 
-	// The client's PlaceAll gives the same answers for the good witnesses.
+	// The client's PlaceAll gives the same answers for the good witnesses (of the first 300).
 	var good []client.Witness
 	var goodWant []*client.Placement
-	for i, c := range cases {
+	for i, c := range cases[:300] {
 		if c.code == codes.OK {
 			good = append(good, c.w)
 			goodWant = append(goodWant, want[i])
