@@ -301,9 +301,12 @@ func (m *Model) stability(g *guide, obs []placement.Observation, best int) float
 	s := getScratch(k)
 	defer putScratch(k, s)
 	// Deal in unit order, so that the order the readings came in does not matter.
-	s.obs = append(s.obs[:0], obs...)
-	slices.SortFunc(s.obs, func(a, b placement.Observation) int { return cmp.Compare(a.Unit, b.Unit) })
-	obs = s.obs
+	byUnit := func(a, b placement.Observation) int { return cmp.Compare(a.Unit, b.Unit) }
+	if !slices.IsSortedFunc(obs, byUnit) {
+		s.obs = append(s.obs[:0], obs...)
+		slices.SortFunc(s.obs, byUnit)
+		obs = s.obs
+	}
 	if cap(s.blocks) < nb*tri {
 		s.blocks = make([]float64, nb*tri)
 	}

@@ -56,8 +56,9 @@ type guide struct {
 	// sectionOf[u] indexes sections (the distinct non-empty section labels in text order), or -1.
 	sectionOf []int
 	sections  []string
-	// probes is the probe list (unit indexes), from the model or computed.
-	probes []int
+	// probes is the probe list (unit indexes), from the model or computed on first use.
+	probesOnce sync.Once
+	probes     []int
 	// unitGram holds each unit's packed Gram block W_u^T W_u (upper triangle by rows), at
 	// gramIndex[u]*k(k+1)/2 for a unit with rows (gramIndex -1 otherwise).
 	unitGram  []float64
@@ -181,15 +182,6 @@ func newGuide(m *Model) *guide {
 	g.cal = parseCalibration(pm.Calibration)
 	g.condEnt = conditionalEntropies(g, m)
 	g.unitGram, g.gramIndex = unitGrams(m)
-	if len(pm.ProbeUnits) > 0 {
-		for _, u := range pm.ProbeUnits {
-			if u >= 0 && int(u) < nu {
-				g.probes = append(g.probes, int(u))
-			}
-		}
-	} else {
-		g.probes = probeList(g, m, DefaultProbeUnits)
-	}
 	return g
 }
 
@@ -302,4 +294,20 @@ func unitGrams(m *Model) ([]float64, []int) {
 		}
 	}
 	return out, idx
+}
+
+// probeUnits returns the probe list: the model's own, or one computed from W on first use.
+func (g *guide) probeUnits(m *Model) []int {
+	g.probesOnce.Do(func() {
+		if len(m.pb.ProbeUnits) > 0 {
+			for _, u := range m.pb.ProbeUnits {
+				if u >= 0 && int(u) < len(m.pb.Units) {
+					g.probes = append(g.probes, int(u))
+				}
+			}
+			return
+		}
+		g.probes = probeList(g, m, DefaultProbeUnits)
+	})
+	return g.probes
 }

@@ -68,10 +68,14 @@ func (m *Model) mixtureTest(g *guide, obs []placement.Observation, a, b int, sha
 	return mx
 }
 
-// mixtureLR maximises l(s) = sum_i log((1-s) a_i + s b_i) over s in [0, 1] by bisection on its
-// derivative (decreasing, as l is concave) and returns the maximiser and 2 (l(s) - max(l(0),
-// l(1))). All a_i, b_i must be positive.
+// mixtureLR maximises l(s) = sum_i log((1-s) a_i + s b_i) over s in [0, 1] and returns the
+// maximiser and 2 (l(s) - max(l(0), l(1))). l is concave, so its derivative decreases; the root
+// of the derivative is found by Newton's method kept inside a shrinking bracket (a bisection
+// step whenever Newton's would leave it). All a_i, b_i must be positive.
 func mixtureLR(a, b []float64) (float64, float64) {
+	if len(a) == 0 {
+		return 0, 0
+	}
 	ll := func(s float64) float64 {
 		t := 0.0
 		for i := range a {
@@ -79,33 +83,45 @@ func mixtureLR(a, b []float64) (float64, float64) {
 		}
 		return t
 	}
-	d := func(s float64) float64 {
-		t := 0.0
+	// d returns l'(s) and l''(s).
+	d := func(s float64) (float64, float64) {
+		d1, d2 := 0.0, 0.0
 		for i := range a {
-			t += (b[i] - a[i]) / ((1-s)*a[i] + s*b[i])
+			diff := b[i] - a[i]
+			x := diff / ((1-s)*a[i] + s*b[i])
+			d1 += x
+			d2 -= x * x
 		}
-		return t
-	}
-	if len(a) == 0 {
-		return 0, 0
+		return d1, d2
 	}
 	var s float64
+	d0, _ := d(0)
+	d1, _ := d(1)
 	switch {
-	case d(0) <= 0:
+	case d0 <= 0:
 		s = 0
-	case d(1) >= 0:
+	case d1 >= 0:
 		s = 1
 	default:
 		lo, hi := 0.0, 1.0
-		for it := 0; it < 60 && hi-lo > 1e-12; it++ {
-			mid := (lo + hi) / 2
-			if d(mid) > 0 {
-				lo = mid
+		s = 0.5
+		for it := 0; it < 100 && hi-lo > 1e-12; it++ {
+			g, h := d(s)
+			if g > 0 {
+				lo = s
 			} else {
-				hi = mid
+				hi = s
 			}
+			next := s - g/h
+			if !(h < 0) || !(next > lo && next < hi) {
+				next = (lo + hi) / 2
+			}
+			if math.Abs(next-s) < 1e-13 {
+				s = next
+				break
+			}
+			s = next
 		}
-		s = (lo + hi) / 2
 	}
 	return s, math.Max(0, 2*(ll(s)-math.Max(ll(0), ll(1))))
 }

@@ -162,7 +162,7 @@ func (m *Model) Suggest(witness string, readings []Reading, opt SuggestOptions) 
 
 	var list []ranked
 	if out.Probe {
-		for _, u := range g.probes {
+		for _, u := range g.probeUnits(m) {
 			if usable(u) {
 				list = append(list, ranked{u, g.gain(m, u, q)})
 			}
@@ -263,7 +263,7 @@ func normaliseLog(v []float64) {
 // ProbeUnits returns the model's probe list as unit indexes, best first: the list stored in the
 // model if it carries one, else the one computed from W (see the notes on the probe list). The
 // caller must not modify the slice.
-func (m *Model) ProbeUnits() []int { return m.guide().probes }
+func (m *Model) ProbeUnits() []int { return m.guide().probeUnits(m) }
 
 // ComputeProbeUnits computes a probe list of at most n units from W, ignoring any stored one.
 func (m *Model) ComputeProbeUnits(n int) []int { return probeList(m.guide(), m, n) }
