@@ -6,17 +6,20 @@
 //
 //  1. Train the model on the whole collation (model.Train) and store each unit's informativeness
 //     and the probe list in it.
-//  2. Split the training witnesses into K folds. For each fold, refit the NMF on the other
-//     folds' witnesses (same rows, weights and options as the model, so the fold model reads
-//     witnesses exactly as the model does) and rescale its profiles as training does.
+//  2. Split the training witnesses into K folds. For each fold, refit the profiles without the
+//     fold's witnesses (same rows, weights and options as the model, so the fold model reads
+//     witnesses exactly as the model does): by default warmly, a few ANLS steps from the model
+//     itself (see warmRefit), or by a fresh NMF (Options.FreshRefits); then rescale the profiles
+//     as training does.
 //  3. Place each held-out witness whole against its fold's model: its best group there is the
 //     answer its fragments should reach. A witness whose own group is in doubt there (flagged
 //     mixed, or placed in different groups in different sections, see doubtful) has no single
-//     answer and is left out, so the confidence speaks of witnesses of one group. Cut simulated fragments out of it at many coverage levels,
-//     each level twice: a contiguous run of units, as a surviving leaf (simulate.CutContiguous),
-//     and units scattered over the text, as spot checks (simulate.CutScattered). Place each
-//     fragment against the fold's model and record its features (model.Features) and whether its
-//     best group is the answer.
+//     answer and is left out, so the confidence speaks of witnesses of one group. From each of
+//     the others (at most Options.Witnesses in all) cut simulated fragments at many coverage
+//     levels, each level twice: a contiguous run of units, as a surviving leaf
+//     (simulate.CutContiguous), and units scattered over the text, as spot checks
+//     (simulate.CutScattered). Place each fragment against the fold's model and record its
+//     features (model.Features) and whether its best group is the answer.
 //  4. Learn the map: a logistic regression of correctness on the features (FitLogistic) gives a
 //     score; isotonic regression of correctness on the score (FitIsotonic, pool adjacent
 //     violators) turns it into a probability, monotone in the score. Its values are kept off 0 and
