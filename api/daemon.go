@@ -97,6 +97,9 @@ func Start(ctx context.Context, cfg Config) (d *Daemon, err error) {
 	if cfg.RequestTimeout <= 0 {
 		cfg.RequestTimeout = 30 * time.Second
 	}
+	if cfg.GRPCAddr == "" {
+		return nil, errors.New("no gRPC listen address: give --grpc-addr HOST:PORT")
+	}
 	if cfg.StorePath == "" {
 		return nil, errors.New("no model store: give --store FILE")
 	}
@@ -108,6 +111,11 @@ func Start(ctx context.Context, cfg Config) (d *Daemon, err error) {
 	}
 	d = &Daemon{cfg: cfg, log: log, metrics: metrics.New(), errs: make(chan error, 4), done: make(chan struct{})}
 	cleanup := func() {
+		for _, g := range []*grpc.Server{d.grpcPub, d.grpcGate} {
+			if g != nil {
+				g.Stop()
+			}
+		}
 		if d.gateConn != nil {
 			d.gateConn.Close()
 		}
