@@ -189,6 +189,17 @@ func NewEngine(W *mat.Dense, unitRows [][2]int, rowWeights []float64) (*Engine, 
 	return e, nil
 }
 
+// UnitGram returns unit u's Gram block W_u^T W_u, packed as the upper triangle by rows
+// (k(k+1)/2 entries: (0,0), (0,1), ..., (0,k-1), (1,1), ...), or nil for a unit with no rows.
+// The slice belongs to the Engine and must not be modified.
+func (e *Engine) UnitGram(u int) []float64 {
+	ui := e.units[u]
+	if ui.lo == ui.hi {
+		return nil
+	}
+	return e.blocks[ui.off : int(ui.off)+e.tri : int(ui.off)+e.tri]
+}
+
 // K returns the number of groups (columns of W).
 func (e *Engine) K() int { return e.k }
 

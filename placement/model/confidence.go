@@ -336,7 +336,7 @@ func (m *Model) stability(g *guide, obs []placement.Observation, best int) float
 		b := order[i] % nb
 		i++
 		blk := blocks[b*tri : (b+1)*tri]
-		ug := g.unitGram[g.gramIndex[o.Unit]*tri:]
+		ug := m.engine.UnitGram(o.Unit)
 		for t := range blk {
 			blk[t] += ug[t]
 		}

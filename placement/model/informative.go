@@ -2,9 +2,7 @@ package model
 
 import (
 	"math"
-	"runtime"
 	"sync"
-	"weak"
 )
 
 // Reading probabilities per group.
@@ -59,30 +57,17 @@ type guide struct {
 	// probes is the probe list (unit indexes), from the model or computed on first use.
 	probesOnce sync.Once
 	probes     []int
-	// unitGram holds each unit's packed Gram block W_u^T W_u (upper triangle by rows), at
-	// gramIndex[u]*k(k+1)/2 for a unit with rows (gramIndex -1 otherwise).
-	unitGram  []float64
-	gramIndex []int
 	// condEnt[u*k+g] = H(R_u | g), nats.
 	condEnt []float64
 	cal     *calibrationMap
 }
 
-var guides sync.Map // weak.Pointer[Model] -> *guide
-
-// guide returns m's derived data, building it on first use. The cache holds m weakly: an entry
-// is dropped once its model is garbage.
+// guide returns m's derived data (reading probabilities, informativeness, sections, the
+// calibration map), building it on first use: decoding a model stays cheap for callers that only
+// place.
 func (m *Model) guide() *guide {
-	key := weak.Make(m)
-	if g, ok := guides.Load(key); ok {
-		return g.(*guide)
-	}
-	g := newGuide(m)
-	if prev, loaded := guides.LoadOrStore(key, g); loaded {
-		return prev.(*guide)
-	}
-	runtime.AddCleanup(m, func(k weak.Pointer[Model]) { guides.Delete(k) }, key)
-	return g
+	m.guideOnce.Do(func() { m.derived = newGuide(m) })
+	return m.derived
 }
 
 func newGuide(m *Model) *guide {
@@ -181,7 +166,6 @@ func newGuide(m *Model) *guide {
 	}
 	g.cal = parseCalibration(pm.Calibration)
 	g.condEnt = conditionalEntropies(g, m)
-	g.unitGram, g.gramIndex = unitGrams(m)
 	return g
 }
 
@@ -264,36 +248,6 @@ func (g *guide) logLik(ll []float64, u, r int, m *Model) {
 	for j := range ll {
 		ll[j] += lo[j]
 	}
-}
-
-// unitGrams returns the packed Gram blocks W_u^T W_u of the units with rows and their index.
-func unitGrams(m *Model) ([]float64, []int) {
-	k := m.K()
-	tri := k * (k + 1) / 2
-	idx := make([]int, len(m.pb.Units))
-	var out []float64
-	n := 0
-	for u, un := range m.pb.Units {
-		idx[u] = -1
-		if un.RowStart == un.RowEnd {
-			continue
-		}
-		idx[u] = n
-		n++
-		out = append(out, make([]float64, tri)...)
-		blk := out[len(out)-tri:]
-		for r := int(un.RowStart); r < int(un.RowEnd); r++ {
-			row := m.pb.Profile[r*k : r*k+k]
-			p := 0
-			for a := 0; a < k; a++ {
-				for c := a; c < k; c++ {
-					blk[p] += row[a] * row[c]
-					p++
-				}
-			}
-		}
-	}
-	return out, idx
 }
 
 // probeUnits returns the probe list: the model's own, or one computed from W on first use.

@@ -6,6 +6,7 @@ package model
 import (
 	"fmt"
 	"math"
+	"sync"
 
 	"gonum.org/v1/gonum/mat"
 
@@ -24,6 +25,9 @@ type Model struct {
 	readingRow []map[string]int
 	groupIDs   []string
 	sizeBytes  int64
+	// derived holds what guidance and confidence need, built once on first use (see guide).
+	guideOnce sync.Once
+	derived   *guide
 }
 
 // FromProto validates m and builds its placement indexes.
