@@ -8,6 +8,7 @@ import (
 
 	"strayleaf"
 	"strayleaf/modelstore"
+	"strayleaf/placement/calibrate"
 	"strayleaf/placement/collation"
 	"strayleaf/placement/model"
 )
@@ -19,15 +20,15 @@ const (
 	demoRestarts  = 4
 )
 
-// TrainDemo trains a model on the embedded demo collation and returns its bundle.
+// TrainDemo trains and calibrates a model on the embedded demo collation and returns its bundle.
 func TrainDemo() ([]byte, error) {
 	c, err := collation.ReadCSV(bytes.NewReader(strayleaf.DemoCollation), "demo collation")
 	if err != nil {
 		return nil, fmt.Errorf("reading the demo collation: %w", err)
 	}
 	sum := sha256.Sum256(strayleaf.DemoCollation)
-	m, _, err := model.Train(c, model.TrainOptions{Groups: demoGroups, Seed: strayleaf.DemoSeed, Restarts: demoRestarts,
-		CollationSHA256: hex.EncodeToString(sum[:])})
+	m, _, err := calibrate.Train(c, model.TrainOptions{Groups: demoGroups, Seed: strayleaf.DemoSeed, Restarts: demoRestarts,
+		CollationSHA256: hex.EncodeToString(sum[:])}, calibrate.Options{Seed: strayleaf.DemoSeed})
 	if err != nil {
 		return nil, fmt.Errorf("training the demo model: %w", err)
 	}

@@ -183,19 +183,11 @@ func runDemo(ctx context.Context, args []string, stdout, stderr io.Writer) error
 		return fmt.Errorf("REST and gRPC disagree on %s: %s %.4f vs %s %.4f", first.Siglum, rest.BestGroup, rest.Confidence, placed[0].BestGroup, placed[0].Confidence)
 	}
 
-	// 6. What to check next.
-	_, sugg, err := cl.Suggest(ctx, "demo@current", first.Siglum, first.Readings, 5)
-	if err != nil {
+	// 6. A cataloguer's loop: a binding strip shows three units of the leaf; ask which of the
+	// leaf's other units to read next, read them, and place again.
+	if err := demoCheckingLoop(ctx, stdout, cl, ws[len(ws)-1]); err != nil {
 		return err
 	}
-	fmt.Fprintf(stdout, "\n6. Units worth checking next on %s:", first.Siglum)
-	if len(sugg) == 0 {
-		fmt.Fprint(stdout, " (the model ranks none)")
-	}
-	for _, s := range sugg {
-		fmt.Fprintf(stdout, " %s (gain %.3f)", s.Unit, s.Gain)
-	}
-	fmt.Fprintln(stdout)
 	fmt.Fprintln(stdout, "\n7. Stopping the service.")
 	return nil
 }
@@ -256,4 +248,52 @@ func groupSources(groups []*pb.GroupSummary, truth *simulate.Truth) map[string]s
 		out[g.GetId()] = strings.Join(parts, ", ")
 	}
 	return out
+}
+
+// demoCheckingLoop shows the cataloguer's loop on one fragment: start from a strip with three
+// units, ask which of the units still legible on the leaf are worth reading next, "read" them
+// (take them from the full fragment) and place again, until the placement is confident.
+func demoCheckingLoop(ctx context.Context, stdout io.Writer, cl *client.Client, leaf client.Witness) error {
+	have := append([]client.Reading(nil), leaf.Readings[:3]...)
+	left := map[string]client.Reading{}
+	for _, r := range leaf.Readings[3:] {
+		left[r.Unit] = r
+	}
+	fmt.Fprintf(stdout, "\n6. What to check next: a binding strip of %s shows only %d units. Asking which of the leaf's other units to read:\n\n", leaf.Siglum, len(have))
+	tw := tabwriter.NewWriter(stdout, 0, 0, 2, ' ', 0)
+	fmt.Fprintln(tw, "   units read\tbest group\tconfidence\tnext to read (expected gain in bits)")
+	for round := 0; round < 4; round++ {
+		p, err := cl.Place(ctx, "demo@current", leaf.Siglum+"-strip", have)
+		if err != nil {
+			return err
+		}
+		cands := make([]string, 0, len(left))
+		for u := range left {
+			cands = append(cands, u)
+		}
+		sort.Strings(cands)
+		next := ""
+		var chosen []client.Reading
+		if p.Confidence < 0.95 && len(cands) > 0 {
+			s, err := cl.SuggestUnits(ctx, "demo@current", leaf.Siglum+"-strip", have, client.SuggestOptions{Top: 3, Candidates: cands})
+			if err != nil {
+				return err
+			}
+			var parts []string
+			for _, u := range s.Units {
+				parts = append(parts, fmt.Sprintf("%s (%.2f)", u.Unit, u.Gain))
+				chosen = append(chosen, left[u.Unit])
+				delete(left, u.Unit)
+			}
+			next = strings.Join(parts, ", ")
+		} else {
+			next = "(settled)"
+		}
+		fmt.Fprintf(tw, "   %d\t%s\t%.2f\t%s\n", len(have), p.BestGroup, p.Confidence, next)
+		if len(chosen) == 0 {
+			break
+		}
+		have = append(have, chosen...)
+	}
+	return tw.Flush()
 }
