@@ -6,10 +6,9 @@ import (
 	"fmt"
 	"math"
 	"math/rand/v2"
-	"runtime"
-	"syscall"
 	"testing"
-	"time"
+
+	"strayleaf/internal/benchcpu"
 
 	"gonum.org/v1/gonum/mat"
 )
@@ -89,7 +88,7 @@ func benchPlace(b *testing.B, nUnits, readings, k, cover int) {
 	b.ReportAllocs()
 	i := 0
 	explained := 0.0
-	cpu := startCPU()
+	cpu := benchcpu.Start()
 	for b.Loop() {
 		fit, err := e.Place(witnesses[i%len(witnesses)], ws)
 		if err != nil {
@@ -98,7 +97,7 @@ func benchPlace(b *testing.B, nUnits, readings, k, cover int) {
 		explained += 1 - fit.Residual/fit.Norm2
 		i++
 	}
-	cpu.report(b)
+	cpu.Report(b)
 	if math.IsNaN(explained) {
 		b.Fatal("NaN fit")
 	}
@@ -115,30 +114,5 @@ func BenchmarkPlace(b *testing.B) { benchPlace(b, 1000, 3, 12, 400) }
 func BenchmarkPlaceCoverage(b *testing.B) {
 	for _, cover := range []int{40, 500, 900, 1000} {
 		b.Run(fmt.Sprintf("units=%d", cover), func(b *testing.B) { benchPlace(b, 1000, 3, 12, cover) })
-	}
-}
-
-// cpuClock measures the CPU time of the benchmarking thread, reported beside ns/op as
-// cpu-ns/op: on a shared machine wall time also counts the time other processes held the core.
-type cpuClock struct{ start time.Duration }
-
-func threadCPU() time.Duration {
-	var ru syscall.Rusage
-	if err := syscall.Getrusage(1 /* RUSAGE_THREAD on Linux */, &ru); err != nil {
-		return -1
-	}
-	return time.Duration(ru.Utime.Nano() + ru.Stime.Nano())
-}
-
-func startCPU() cpuClock {
-	runtime.LockOSThread()
-	return cpuClock{start: threadCPU()}
-}
-
-func (c cpuClock) report(b *testing.B) {
-	end := threadCPU()
-	runtime.UnlockOSThread()
-	if c.start >= 0 && end >= 0 && b.N > 0 {
-		b.ReportMetric(float64(end-c.start)/float64(b.N), "cpu-ns/op")
 	}
 }

@@ -5,10 +5,9 @@ package nnls
 import (
 	"fmt"
 	"math/rand/v2"
-	"runtime"
-	"syscall"
 	"testing"
-	"time"
+
+	"strayleaf/internal/benchcpu"
 
 	"gonum.org/v1/gonum/mat"
 )
@@ -50,13 +49,13 @@ func BenchmarkSolveGram(b *testing.B) {
 			s := NewSolver(k)
 			b.Run(fmt.Sprintf("k=%d/%s", k, act.name), func(b *testing.B) {
 				b.ReportAllocs()
-				cpu := startCPU()
+				cpu := benchcpu.Start()
 				for b.Loop() {
 					if err := s.SolveGram(G, c, x); err != nil {
 						b.Fatal(err)
 					}
 				}
-				cpu.report(b)
+				cpu.Report(b)
 			})
 		}
 	}
@@ -70,38 +69,13 @@ func BenchmarkSolve(b *testing.B) {
 		A, rhs := mixtureProblem(rng, 3*k*10, k, k/4)
 		b.Run(fmt.Sprintf("k=%d", k), func(b *testing.B) {
 			b.ReportAllocs()
-			cpu := startCPU()
+			cpu := benchcpu.Start()
 			for b.Loop() {
 				if _, err := Solve(A, rhs); err != nil {
 					b.Fatal(err)
 				}
 			}
-			cpu.report(b)
+			cpu.Report(b)
 		})
-	}
-}
-
-// cpuClock measures the CPU time of the benchmarking thread, reported beside ns/op as
-// cpu-ns/op: on a shared machine wall time also counts the time other processes held the core.
-type cpuClock struct{ start time.Duration }
-
-func threadCPU() time.Duration {
-	var ru syscall.Rusage
-	if err := syscall.Getrusage(1 /* RUSAGE_THREAD on Linux */, &ru); err != nil {
-		return -1
-	}
-	return time.Duration(ru.Utime.Nano() + ru.Stime.Nano())
-}
-
-func startCPU() cpuClock {
-	runtime.LockOSThread()
-	return cpuClock{start: threadCPU()}
-}
-
-func (c cpuClock) report(b *testing.B) {
-	end := threadCPU()
-	runtime.UnlockOSThread()
-	if c.start >= 0 && end >= 0 && b.N > 0 {
-		b.ReportMetric(float64(end-c.start)/float64(b.N), "cpu-ns/op")
 	}
 }
