@@ -76,3 +76,31 @@ func BenchmarkPlaceFragment(b *testing.B) {
 		}
 	}
 }
+
+// BenchmarkPlace400: Place (with confidence features, mixture test and nearest witnesses) of a
+// 400-unit witness against the 3,000-reading, k = 12 model. Goal: about 40 µs or less per call
+// (the service's unary and streaming goals in api/bench_test.go rest on it), and few allocations.
+func BenchmarkPlace400(b *testing.B) {
+	m, tr := benchModel(b)
+	c := tr.Collation
+	rng := rand.New(rand.NewPCG(4, 5))
+	frag := simulate.CutScattered(c.Row(3), 400, rng)
+	var rd []Reading
+	for u, r := range frag {
+		if r != collation.Lacuna {
+			rd = append(rd, Reading{Unit: c.Unit(u).ID, Reading: c.Unit(u).Readings[r]})
+		}
+	}
+	if len(rd) != 400 {
+		b.Fatalf("witness has %d readings; expected 400", len(rd))
+	}
+	ws := m.Engine().NewWorkspace()
+	m.guide()
+	b.ReportMetric(float64(len(m.Proto().Rows)), "rows")
+	b.ReportAllocs()
+	for b.Loop() {
+		if _, err := m.Place("W400", rd, ws); err != nil {
+			b.Fatal(err)
+		}
+	}
+}

@@ -7,7 +7,7 @@ import (
 	"math/rand/v2"
 	"testing"
 
-	"strayleaf/internal/benchcpu"
+	"strayleaf/placement/internal/benchcpu"
 
 	"gonum.org/v1/gonum/mat"
 )
