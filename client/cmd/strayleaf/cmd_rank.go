@@ -9,7 +9,6 @@ import (
 	"strings"
 	"text/tabwriter"
 
-	"strayleaf/placement/nmf"
 	"strayleaf/placement/prepare"
 	"strayleaf/placement/rank"
 )
@@ -91,7 +90,7 @@ func runRank(ctx context.Context, args []string, stdout, stderr io.Writer) error
 	if hi > len(p.Train) {
 		return usageError("rank", "--k-range goes to %d but only %d witnesses are left to train on", hi, len(p.Train))
 	}
-	nopt := nmf.DefaultOptions(lo)
+	nopt := rank.SweepOptions()
 	nopt.Seed = *seed
 	prog := newProgress(stderr, "rank sweep", *quiet)
 	res, err := rank.SweepContext(ctx, p.X, p.M, lo, hi, *restarts, nopt, prog.update)
