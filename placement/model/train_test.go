@@ -6,6 +6,7 @@ import (
 	"strayleaf/placement/cluster"
 	"strayleaf/placement/collation"
 	"strayleaf/placement/prepare"
+	"strayleaf/placement/rank"
 	"strayleaf/placement/simulate"
 	pb "strayleaf/proto/strayleaf/v1"
 )
@@ -89,6 +90,20 @@ func TestTrainRecoversSimulatedGroups(t *testing.T) {
 			t.Logf("%s: k=%d, %d training witnesses, ARI %.3f", tc.name, k, len(truth), ari)
 			if ari < 0.9 {
 				t.Errorf("adjusted Rand index %.3f < 0.9", ari)
+			}
+
+			// The rank rule recovers the simulated number of groups within one.
+			p, err := prepare.Prepare(tr.Collation, prepare.DefaultOptions())
+			if err != nil {
+				t.Fatal(err)
+			}
+			res, err := rank.Sweep(p.X, p.M, max(2, k-2), k+2, 4, rank.SweepOptions(), nil)
+			if err != nil {
+				t.Fatal(err)
+			}
+			t.Logf("%s: rank rule recommends k = %d (%s)", tc.name, res.Recommended, res.Reason)
+			if d := res.Recommended - k; d < -1 || d > 1 {
+				t.Errorf("rank rule recommends k = %d for %d simulated groups", res.Recommended, k)
 			}
 		})
 	}
