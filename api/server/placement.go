@@ -85,7 +85,8 @@ func (s *Server) placeOne(ctx context.Context, m *model.Model, ref string, witne
 			return nil, badRequest("witness has no siglum", noSiglum...)
 		}
 	} else {
-		pl, err = m.Place(witness, rs, sc.ws)
+		// The answer carries no nearest witnesses, so they are not looked for.
+		pl, err = m.PlaceWith(witness, rs, sc.ws, model.PlaceOptions{})
 	}
 	if err != nil {
 		var in *model.InputError

@@ -7,7 +7,6 @@ import (
 	"math/rand/v2"
 	"slices"
 	"sort"
-	"sync"
 
 	"strayleaf/placement"
 	"strayleaf/placement/nnls"
@@ -177,17 +176,18 @@ func provisionalConfidence(p *Placement) float64 {
 	return p.Groups[0].Share * n / (n + 10)
 }
 
-// assess fills in what follows from a finished fit: informative coverage, features, confidence,
-// the mixture test and the nearest training witnesses.
-func (m *Model) assess(p *Placement, obs []placement.Observation, readings []Reading) {
+// assess fills in what follows from a finished fit: informative coverage, features, confidence
+// and the mixture test.
+func (m *Model) assess(p *Placement, obs []placement.Observation, s *placeScratch) {
 	g := m.guide()
 	k := g.k
-	used := make([]int, 0, len(obs))
+	used := s.used[:0]
 	for _, o := range obs {
 		if un := m.pb.Units[o.Unit]; un.RowStart < un.RowEnd {
 			used = append(used, o.Unit)
 		}
 	}
+	s.used = used
 	p.InformativeCoverage = g.coverage(used)
 	f := Features{InformativeCoverage: p.InformativeCoverage, RelativeResidual: p.RelativeResidual, UsedUnits: p.UsedUnits}
 	best, second := topTwo(p.Coefficients)
@@ -196,9 +196,10 @@ func (m *Model) assess(p *Placement, obs []placement.Observation, readings []Rea
 		if k > 1 {
 			f.Margin -= p.Groups[1].Share
 		}
-		f.Stability = m.stability(g, obs, best)
+		f.Stability = m.stability(g, obs, best, p.Coefficients, &s.boot)
 	}
-	ll := make([]float64, k)
+	ll := s.ll[:k]
+	clear(ll)
 	for _, o := range obs {
 		g.logLik(ll, o.Unit, o.Row, m)
 	}
@@ -222,10 +223,9 @@ func (m *Model) assess(p *Placement, obs []placement.Observation, readings []Rea
 	p.Features = f
 	p.Confidence, p.Calibrated = g.confidenceOf(p)
 	if k > 1 && p.BestGroup != "" {
-		p.Mixture = m.mixtureTest(g, obs, best, second, p.Groups[1].Share)
+		p.Mixture = m.mixtureTest(g, obs, best, second, p.Groups[1].Share, s)
 		p.Mixed = p.Mixture.Mixed
 	}
-	p.Nearest = m.Nearest(readings, NearestWitnesses)
 }
 
 func clipOdds(x float64) float64 { return math.Max(-LogOddsClip, math.Min(LogOddsClip, x)) }
@@ -247,41 +247,42 @@ func topTwo(h []float64) (int, int) {
 	return best, second
 }
 
-// bootScratch is the per-goroutine memory of the stability resampling.
+// bootScratch is the memory of the stability resampling (part of placeScratch).
 type bootScratch struct {
-	blocks, cross []float64 // per used observation: packed Gram block and W_u^T v_u
+	blocks, cross []float64 // per block: packed Gram sum and sum of W_u^T v_u
 	packed        []float64
 	g, c, h       []float64
-	counts        []int
-	obs           []placement.Observation
-	solver        *nnls.Solver
-}
-
-var bootPools sync.Map // k -> *sync.Pool of *bootScratch
-
-func getScratch(k int) *bootScratch {
-	pi, _ := bootPools.LoadOrStore(k, &sync.Pool{New: func() any {
-		tri := k * (k + 1) / 2
-		return &bootScratch{packed: make([]float64, tri), g: make([]float64, k*k), c: make([]float64, k), h: make([]float64, k), solver: nnls.NewSolver(k)}
-	}})
-	return pi.(*sync.Pool).Get().(*bootScratch)
-}
-
-func putScratch(k int, s *bootScratch) {
-	if pi, ok := bootPools.Load(k); ok {
-		pi.(*sync.Pool).Put(s)
-	}
+	// z, w and l are the warm start's solution on the passive set, negative gradient and
+	// Cholesky factor of G_PP (row-major, stride k); passive is P.
+	z, w, l []float64
+	passive []int
+	order   []int // the random permutation that deals the units into blocks
+	counts  []int
+	start   []int       // grams[start[b]:start[b+1]] are the unit Gram blocks dealt to block b
+	grams   [][]float64 // unit Gram blocks, by block
+	nz      []int       // blocks drawn in the current resample
+	obs     []placement.Observation
+	solver  *nnls.Solver
 }
 
 // stability is the share of Resamples bootstrap resamples of the used observations whose NNLS
 // placement has its largest coefficient in group best. The used units are dealt at random into
 // m = min(n, BootstrapBlocks) blocks of near-equal size, and each resample draws m blocks with
-// replacement, a block drawn c times entering the normal equations c times. With m = n (up to
-// BootstrapBlocks units) this is the plain bootstrap of the units; beyond, it is the bootstrap of
-// random groups of units, whose sums are independent and alike, so the spread of the resampled
-// fit is preserved while a resample costs O(m k^2) however many units the witness has. The draws
-// are seeded by the observations themselves, so the same witness always gets the same value.
-func (m *Model) stability(g *guide, obs []placement.Observation, best int) float64 {
+// replacement, a block drawn c times entering the normal equations c times:
+//
+//	G* = sum_b c_b G_b,   c* = sum_b c_b W_b^T v_b,   G_b = sum_{u in b} W_u^T W_u.
+//
+// With m = n (up to BootstrapBlocks units) this is the plain bootstrap of the units; beyond, it
+// is the bootstrap of random groups of units, whose sums are independent and alike, so the
+// spread of the resampled fit is preserved while a resample costs O(m k^2) however many units
+// the witness has. The draws are seeded by the observations themselves, so the same witness
+// always gets the same value.
+//
+// Each resample is solved first from the passive set P = {j : h_j > 0} of the full fit h (see
+// warmSolve), which a resample usually keeps; only when the KKT conditions fail there is it
+// solved from scratch by the active-set method. Either way the answer is the resample's NNLS
+// minimiser.
+func (m *Model) stability(g *guide, obs []placement.Observation, best int, h []float64, s *bootScratch) float64 {
 	k := g.k
 	tri := k * (k + 1) / 2
 	prof := m.pb.Profile
@@ -298,8 +299,6 @@ func (m *Model) stability(g *guide, obs []placement.Observation, best int) float
 	}
 	rng := rand.New(rand.NewPCG(seed, 0x73746162696c6974)) // "stabilit"
 	nb := min(n, BootstrapBlocks)
-	s := getScratch(k)
-	defer putScratch(k, s)
 	// Deal in unit order, so that the order the readings came in does not matter.
 	byUnit := func(a, b placement.Observation) int { return cmp.Compare(a.Unit, b.Unit) }
 	if !slices.IsSortedFunc(obs, byUnit) {
@@ -307,20 +306,19 @@ func (m *Model) stability(g *guide, obs []placement.Observation, best int) float
 		slices.SortFunc(s.obs, byUnit)
 		obs = s.obs
 	}
-	if cap(s.blocks) < nb*tri {
-		s.blocks = make([]float64, nb*tri)
+	s.blocks = grow(s.blocks, nb*tri)
+	s.cross = grow(s.cross, nb*k)
+	s.order = growInts(s.order, n)
+	s.counts = growInts(s.counts, nb)
+	s.start = growInts(s.start, nb+1)
+	if cap(s.grams) < n {
+		s.grams = make([][]float64, n)
 	}
-	if cap(s.cross) < nb*k {
-		s.cross = make([]float64, nb*k)
-	}
-	if cap(s.counts) < max(n, nb) {
-		s.counts = make([]int, max(n, nb))
-	}
-	blocks, cross := s.blocks[:nb*tri], s.cross[:nb*k]
+	blocks, cross, grams := s.blocks[:nb*tri], s.cross[:nb*k], s.grams[:n]
 	clear(blocks)
 	clear(cross)
 	// Deal the units into blocks: a random permutation of positions, position i to block i mod nb.
-	order := s.counts[:n]
+	order := s.order[:n]
 	for i := range order {
 		order[i] = i
 	}
@@ -328,6 +326,17 @@ func (m *Model) stability(g *guide, obs []placement.Observation, best int) float
 		j := rng.IntN(i + 1)
 		order[i], order[j] = order[j], order[i]
 	}
+	// Block b gets the positions i with order[i] mod nb = b: sizes n/nb or n/nb + 1.
+	start := s.start[:nb+1]
+	start[0] = 0
+	for b := range nb {
+		start[b+1] = start[b] + n/nb
+		if b < n%nb {
+			start[b+1]++
+		}
+	}
+	fill := s.counts[:nb]
+	copy(fill, start[:nb])
 	i := 0
 	for _, o := range obs {
 		if un := m.pb.Units[o.Unit]; un.RowStart == un.RowEnd {
@@ -335,18 +344,24 @@ func (m *Model) stability(g *guide, obs []placement.Observation, best int) float
 		}
 		b := order[i] % nb
 		i++
-		blk := blocks[b*tri : (b+1)*tri]
-		ug := m.engine.UnitGram(o.Unit)
-		for t := range blk {
-			blk[t] += ug[t]
-		}
+		grams[fill[b]] = m.engine.UnitGram(o.Unit)
+		fill[b]++
 		if o.Row >= 0 {
 			w := m.pb.Rows[o.Row].Weight
 			row := prof[o.Row*k : o.Row*k+k]
 			cb := cross[b*k : (b+1)*k]
-			for j := 0; j < k; j++ {
-				cb[j] += w * row[j]
+			for j, v := range row {
+				cb[j] += w * v
 			}
+		}
+	}
+	for b := range nb {
+		addSlices(blocks[b*tri:(b+1)*tri], grams[start[b]:start[b+1]])
+	}
+	s.passive = s.passive[:0]
+	for j, v := range h {
+		if v > 0 {
+			s.passive = append(s.passive, j)
 		}
 	}
 	counts := s.counts[:nb]
@@ -356,22 +371,15 @@ func (m *Model) stability(g *guide, obs []placement.Observation, best int) float
 		for i := 0; i < nb; i++ {
 			counts[rng.IntN(nb)]++
 		}
-		clear(s.packed)
-		clear(s.c)
+		nz := s.nz[:0]
 		for b, c := range counts {
-			if c == 0 {
-				continue
-			}
-			fc := float64(c)
-			blk := blocks[b*tri : (b+1)*tri]
-			for t := range s.packed {
-				s.packed[t] += fc * blk[t]
-			}
-			cb := cross[b*k : (b+1)*k]
-			for j := range s.c {
-				s.c[j] += fc * cb[j]
+			if c > 0 {
+				nz = append(nz, b)
 			}
 		}
+		s.nz = nz
+		addScaledBlocks(s.packed, blocks, tri, nz, counts)
+		addScaledBlocks(s.c, cross, k, nz, counts)
 		p := 0
 		for a := 0; a < k; a++ {
 			for c := a; c < k; c++ {
@@ -380,8 +388,10 @@ func (m *Model) stability(g *guide, obs []placement.Observation, best int) float
 				p++
 			}
 		}
-		if err := s.solver.SolveGram(s.g, s.c, s.h); err != nil {
-			continue
+		if !s.warmSolve(k) {
+			if err := s.solver.SolveGram(s.g, s.c, s.h); err != nil {
+				continue
+			}
 		}
 		top, _ := topTwo(s.h)
 		if s.h[top] > 0 && top == best {
@@ -389,6 +399,155 @@ func (m *Model) stability(g *guide, obs []placement.Observation, best int) float
 		}
 	}
 	return float64(same) / Resamples
+}
+
+// warmMargin is the relative margin by which warmSolve needs the negative gradient off the
+// passive set to be below zero: w_j < -warmMargin ||a_j|| sum_P ||a_i|| z_i, far beyond the
+// rounding of w, so that a w_j that is zero in exact arithmetic (a column in the span of the
+// passive ones, where the minimiser is not unique) is never taken for negative.
+const warmMargin = 1e-9
+
+// warmSolve tries the passive set P of the full fit for the resample's problem
+// min x^T G x - 2 c^T x over x >= 0 (G = s.g, c = s.c): it solves G_PP z = c_P by Cholesky and
+// accepts x = (z on P, 0 elsewhere), writing it to s.h, when it satisfies the KKT conditions
+// strictly: z > 0, and w_j = c_j - (G x)_j < 0 off P, by the margin warmMargin (or w_j <= 0 for a column with G_jj = 0,
+// which the active-set method can never admit). The problem is convex, so such an x is a
+// minimiser; every minimiser has the same G x, hence the same w, so w_j < 0 forces x_j = 0 off
+// P, and G_PP positive definite makes x unique: it is what nnls.Solver.SolveGram returns, up
+// to rounding. A Cholesky pivot at most 1e-12 G_jj (the solver's dependence test) refuses P.
+// It reports whether x was accepted.
+func (s *bootScratch) warmSolve(k int) bool {
+	P, G, c, L, z := s.passive, s.g, s.c, s.l, s.z
+	np := len(P)
+	if np == 0 {
+		return false
+	}
+	for a, j := range P {
+		la := L[a*k : a*k+a+1]
+		d := G[j*k+j]
+		for b := 0; b < a; b++ {
+			lb := L[b*k : b*k+b+1]
+			v := G[j*k+P[b]]
+			for t := 0; t < b; t++ {
+				v -= la[t] * lb[t]
+			}
+			v /= lb[b]
+			la[b] = v
+			d -= v * v
+		}
+		if !(d > 1e-12*G[j*k+j]) {
+			return false
+		}
+		la[a] = math.Sqrt(d)
+	}
+	// L y = c_P, then L^T z = y (y kept in z).
+	for a, j := range P {
+		v := c[j]
+		for b := 0; b < a; b++ {
+			v -= L[a*k+b] * z[b]
+		}
+		z[a] = v / L[a*k+a]
+	}
+	for a := np - 1; a >= 0; a-- {
+		v := z[a]
+		for b := a + 1; b < np; b++ {
+			v -= L[b*k+a] * z[b]
+		}
+		z[a] = v / L[a*k+a]
+		if !(z[a] > 0) {
+			return false
+		}
+	}
+	w := s.w
+	copy(w, c)
+	scale := 0.0 // sum_P ||a_j|| z_j, the size of the terms cancelled in w
+	for a, j := range P {
+		col := G[j*k : j*k+k] // row j = column j by symmetry
+		for i := range w {
+			w[i] -= col[i] * z[a]
+		}
+		scale += math.Sqrt(G[j*k+j]) * z[a]
+	}
+	q := 0
+	for j := range k {
+		if q < np && P[q] == j {
+			q++
+			continue
+		}
+		d := G[j*k+j]
+		if d == 0 {
+			if !(w[j] <= 0) {
+				return false
+			}
+			continue
+		}
+		if !(w[j] < -warmMargin*math.Sqrt(d)*scale) {
+			return false
+		}
+	}
+	clear(s.h)
+	for a, j := range P {
+		s.h[j] = z[a]
+	}
+	return true
+}
+
+// addSlices adds the vectors srcs[q] (each at least len(dst) long) to dst, four per pass over
+// dst, so that dst is loaded and stored once per four.
+func addSlices(dst []float64, srcs [][]float64) {
+	q := 0
+	for ; q+4 <= len(srcs); q += 4 {
+		a, b, c, d := srcs[q][:len(dst)], srcs[q+1][:len(dst)], srcs[q+2][:len(dst)], srcs[q+3][:len(dst)]
+		for i := range dst {
+			dst[i] += (a[i] + b[i]) + (c[i] + d[i])
+		}
+	}
+	for ; q < len(srcs); q++ {
+		a := srcs[q][:len(dst)]
+		for i := range dst {
+			dst[i] += a[i]
+		}
+	}
+}
+
+// addScaledBlocks sets dst to sum over b in which of counts[b] * src[b*n : (b+1)*n], with
+// n = len(dst), four blocks per pass over dst.
+func addScaledBlocks(dst, src []float64, n int, which, counts []int) {
+	clear(dst)
+	dst = dst[:n]
+	q := 0
+	for ; q+4 <= len(which); q += 4 {
+		b0, b1, b2, b3 := which[q], which[q+1], which[q+2], which[q+3]
+		f0, f1, f2, f3 := float64(counts[b0]), float64(counts[b1]), float64(counts[b2]), float64(counts[b3])
+		a, b, c, d := src[b0*n:b0*n+n], src[b1*n:b1*n+n], src[b2*n:b2*n+n], src[b3*n:b3*n+n]
+		for i := range dst {
+			dst[i] += (f0*a[i] + f1*b[i]) + (f2*c[i] + f3*d[i])
+		}
+	}
+	for ; q < len(which); q++ {
+		b0 := which[q]
+		f0 := float64(counts[b0])
+		a := src[b0*n : b0*n+n]
+		for i := range dst {
+			dst[i] += f0 * a[i]
+		}
+	}
+}
+
+// grow returns s with length n, reallocated if its capacity is short (contents not kept).
+func grow(s []float64, n int) []float64 {
+	if cap(s) < n {
+		return make([]float64, n)
+	}
+	return s[:n]
+}
+
+// growInts is grow for ints.
+func growInts(s []int, n int) []int {
+	if cap(s) < n {
+		return make([]int, n)
+	}
+	return s[:n]
 }
 
 // mix64 is the splitmix64 finaliser (Steele, Lea & Flood 2014; from memory).

@@ -44,10 +44,9 @@ type Mixture struct {
 }
 
 // mixtureTest runs the test for the groups a (first) and b (second) over the used observations.
-func (m *Model) mixtureTest(g *guide, obs []placement.Observation, a, b int, share float64) *Mixture {
+func (m *Model) mixtureTest(g *guide, obs []placement.Observation, a, b int, share float64, sc *placeScratch) *Mixture {
 	k := g.k
-	pa := make([]float64, 0, len(obs))
-	pbv := make([]float64, 0, len(obs))
+	pa, pbv := sc.pa[:0], sc.pb[:0]
 	for _, o := range obs {
 		un := m.pb.Units[o.Unit]
 		if un.RowStart == un.RowEnd {
@@ -62,6 +61,7 @@ func (m *Model) mixtureTest(g *guide, obs []placement.Observation, a, b int, sha
 		pa = append(pa, row[a])
 		pbv = append(pbv, row[b])
 	}
+	sc.pa, sc.pb = pa, pbv
 	s, lr := mixtureLR(pa, pbv)
 	mx := &Mixture{Primary: m.groupIDs[a], Secondary: m.groupIDs[b], Share: share, LikelihoodShare: s, LikelihoodRatio: lr}
 	mx.Mixed = share >= MixedShare && lr >= MixtureCritical

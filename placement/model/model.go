@@ -20,14 +20,45 @@ type Model struct {
 	w         *mat.Dense
 	engine    *placement.Engine
 	unitIndex map[string]int
-	// readingRow[u] maps a reading label of unit u to its row, or -1 when the model knows the
-	// label but set it aside (a singular reading).
-	readingRow []map[string]int
-	groupIDs   []string
-	sizeBytes  int64
+	// lookup[u] finds the row of a reading label of unit u (see unitLookup).
+	lookup    []unitLookup
+	groupIDs  []string
+	sizeBytes int64
 	// derived holds what guidance and confidence need, built once on first use (see guide).
 	guideOnce sync.Once
 	derived   *guide
+	// scratch pools the per-call memory of Place (*placeScratch), so that a placement allocates
+	// only what it returns.
+	scratch sync.Pool
+}
+
+// maxScanLabels is the most reading labels of a unit that are found by scanning them rather
+// than by a map: a few string comparisons are cheaper than hashing the label.
+const maxScanLabels = 16
+
+// unitLookup finds the row of W of a reading label at one unit. A unit has few readings, so the
+// labels are scanned (the first equal label answers); a unit with more than maxScanLabels
+// labels uses a map. rowOf[i] is the row of label i, or -1 when the model knows the label but set
+// it aside (a singular reading); of equal labels, rowOf holds for each the same answer.
+type unitLookup struct {
+	labels []string
+	rowOf  []int32
+	byName map[string]int32 // only for units with more than maxScanLabels labels
+}
+
+// row returns the row of reading label at the unit, -1 for a label set aside, and whether the
+// model knows the label at all.
+func (l *unitLookup) row(label string) (int, bool) {
+	if l.byName != nil {
+		r, ok := l.byName[label]
+		return int(r), ok
+	}
+	for i, s := range l.labels {
+		if s == label {
+			return int(l.rowOf[i]), true
+		}
+	}
+	return -1, false
 }
 
 // FromProto validates m and builds its placement indexes.
@@ -51,7 +82,7 @@ func FromProto(m *pb.Model) (*Model, error) {
 	if len(m.Groups) != k {
 		return nil, fmt.Errorf("model: %d group summaries for %d groups", len(m.Groups), k)
 	}
-	out := &Model{pb: m, unitIndex: make(map[string]int, len(m.Units)), readingRow: make([]map[string]int, len(m.Units))}
+	out := &Model{pb: m, unitIndex: make(map[string]int, len(m.Units)), lookup: make([]unitLookup, len(m.Units))}
 	unitRows := make([][2]int, len(m.Units))
 	weights := make([]float64, nr)
 	for u, un := range m.Units {
@@ -64,7 +95,8 @@ func FromProto(m *pb.Model) (*Model, error) {
 			return nil, fmt.Errorf("model: unit %q has row range [%d,%d) outside the %d rows", un.Id, lo, hi, nr)
 		}
 		unitRows[u] = [2]int{lo, hi}
-		rr := make(map[string]int, len(un.Readings))
+		// The row of each label; with repeated labels, the row of the last one that has a row.
+		rr := make(map[string]int32, len(un.Readings))
 		for _, label := range un.Readings {
 			rr[label] = -1
 		}
@@ -73,10 +105,19 @@ func FromProto(m *pb.Model) (*Model, error) {
 			if int(row.Unit) != u || row.Reading < 0 || int(row.Reading) >= len(un.Readings) {
 				return nil, fmt.Errorf("model: row %d does not belong to unit %q", i, un.Id)
 			}
-			rr[un.Readings[row.Reading]] = i
+			rr[un.Readings[row.Reading]] = int32(i)
 			weights[i] = row.Weight
 		}
-		out.readingRow[u] = rr
+		lk := unitLookup{labels: un.Readings}
+		if len(un.Readings) > maxScanLabels {
+			lk.byName = rr
+		} else {
+			lk.rowOf = make([]int32, len(un.Readings))
+			for i, label := range un.Readings {
+				lk.rowOf[i] = rr[label]
+			}
+		}
+		out.lookup[u] = lk
 	}
 	for i, row := range m.Rows {
 		if row.Unit < 0 || int(row.Unit) >= len(m.Units) {

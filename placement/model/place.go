@@ -1,9 +1,10 @@
 package model
 
 import (
+	"cmp"
 	"errors"
 	"fmt"
-	"sort"
+	"slices"
 	"strings"
 
 	"strayleaf/placement"
@@ -90,15 +91,34 @@ var ErrNoCoverage = placement.ErrNoCoverage
 // Observe checks a witness's readings against the model and turns them into engine observations.
 // Every unknown unit and every unit given twice is reported in one *InputError.
 func (m *Model) Observe(witness string, readings []Reading, obs []placement.Observation) ([]placement.Observation, *Placement, error) {
+	s := m.getScratch()
+	defer m.putScratch(s)
+	return m.observe(witness, readings, obs, s)
+}
+
+// findUnit returns the index of unit id. Witnesses usually list their units in the model's order,
+// so the unit after the previous one (guess) is tried first, by one string comparison, before
+// the map.
+func (m *Model) findUnit(id string, guess int) (int, bool) {
+	if guess >= 0 && guess < len(m.pb.Units) && m.pb.Units[guess].Id == id {
+		return guess, true
+	}
+	u, ok := m.unitIndex[id]
+	return u, ok
+}
+
+// observe is Observe with the caller's scratch memory.
+func (m *Model) observe(witness string, readings []Reading, obs []placement.Observation, s *placeScratch) ([]placement.Observation, *Placement, error) {
 	p := &Placement{Witness: witness}
 	var bad []Violation
 	if len(readings) == 0 {
 		bad = append(bad, Violation{Field: "readings", Description: "no readings given; expected at least one checked unit"})
 	}
-	seen := make(map[int]int, len(readings))
+	gen := s.nextGen()
 	obs = obs[:0]
+	prev := -1
 	for i, r := range readings {
-		u, ok := m.unitIndex[r.Unit]
+		u, ok := m.findUnit(r.Unit, prev+1)
 		switch {
 		case r.Unit == "":
 			bad = append(bad, Violation{Field: fmt.Sprintf("readings[%d].unit", i), Description: "empty unit id"})
@@ -110,17 +130,18 @@ func (m *Model) Observe(witness string, readings []Reading, obs []placement.Obse
 			bad = append(bad, Violation{Field: fmt.Sprintf("readings[%d].reading", i), Description: fmt.Sprintf("empty reading at unit %q; leave a lacuna out instead", r.Unit)})
 			continue
 		}
-		if j, dup := seen[u]; dup {
-			bad = append(bad, Violation{Field: fmt.Sprintf("readings[%d].unit", i), Description: fmt.Sprintf("unit %q given twice (also readings[%d]); a witness has at most one reading at a unit (a corrector is usually given its own siglum)", r.Unit, j)})
+		prev = u
+		if s.seen[u] == gen {
+			bad = append(bad, Violation{Field: fmt.Sprintf("readings[%d].unit", i), Description: fmt.Sprintf("unit %q given twice (also readings[%d]); a witness has at most one reading at a unit (a corrector is usually given its own siglum)", r.Unit, s.at[u])})
 			continue
 		}
-		seen[u] = i
+		s.seen[u], s.at[u] = gen, int32(i)
 		un := m.pb.Units[u]
 		if un.RowStart == un.RowEnd {
 			p.UninformativeUnits = append(p.UninformativeUnits, r.Unit)
 			continue
 		}
-		row, known := m.readingRow[u][r.Reading]
+		row, known := m.lookup[u].row(r.Reading)
 		if !known || row < 0 {
 			p.UnknownReadings = append(p.UnknownReadings, r.Unit)
 			row = -1
@@ -135,13 +156,30 @@ func (m *Model) Observe(witness string, readings []Reading, obs []placement.Obse
 	return obs, p, nil
 }
 
+// PlaceOptions choose the optional parts of a placement.
+type PlaceOptions struct {
+	// Nearest is how many nearest training witnesses to name in Placement.Nearest (see
+	// Model.Nearest); 0 names none and saves the comparison with every training witness.
+	Nearest int
+}
+
 // Place places one partial witness: masked NNLS of its readings against W over the units it
-// covers. ws may be nil (one is made); pipelines placing many witnesses reuse one per goroutine.
+// covers, with its confidence features, mixture test and the NearestWitnesses nearest training
+// witnesses. ws may be nil (one is made); pipelines placing many witnesses reuse one per
+// goroutine.
 func (m *Model) Place(witness string, readings []Reading, ws *placement.Workspace) (*Placement, error) {
+	return m.PlaceWith(witness, readings, ws, PlaceOptions{Nearest: NearestWitnesses})
+}
+
+// PlaceWith is Place with the optional parts chosen by opt.
+func (m *Model) PlaceWith(witness string, readings []Reading, ws *placement.Workspace, opt PlaceOptions) (*Placement, error) {
 	if ws == nil {
 		ws = m.engine.NewWorkspace()
 	}
-	obs, p, err := m.Observe(witness, readings, nil)
+	s := m.getScratch()
+	defer m.putScratch(s)
+	obs, p, err := m.observe(witness, readings, s.obs, s)
+	s.obs = obs
 	if err != nil {
 		return nil, err
 	}
@@ -153,7 +191,10 @@ func (m *Model) Place(witness string, readings []Reading, ws *placement.Workspac
 		return nil, fmt.Errorf("witness %s: %w", witness, err)
 	}
 	m.finish(p, fit)
-	m.assess(p, obs, readings)
+	m.assess(p, obs, s)
+	if opt.Nearest > 0 {
+		p.Nearest = m.Nearest(readings, opt.Nearest)
+	}
 	return p, nil
 }
 
@@ -177,7 +218,7 @@ func (m *Model) finish(p *Placement, fit placement.Fit) {
 		}
 		p.Groups[g] = GroupShare{Group: m.groupIDs[g], Share: s}
 	}
-	sort.SliceStable(p.Groups, func(a, b int) bool { return p.Groups[a].Share > p.Groups[b].Share })
+	slices.SortStableFunc(p.Groups, func(a, b GroupShare) int { return cmp.Compare(b.Share, a.Share) })
 	if sum > 0 {
 		p.BestGroup = p.Groups[0].Group
 	}
