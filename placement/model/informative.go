@@ -60,6 +60,9 @@ type guide struct {
 	// condEnt[u*k+g] = H(R_u | g), nats.
 	condEnt []float64
 	cal     *calibrationMap
+	// cells holds the training witnesses' readings unit-major (see trainingCells).
+	cellsOnce sync.Once
+	cells     []int32
 }
 
 // guide returns m's derived data (reading probabilities, informativeness, sections, the

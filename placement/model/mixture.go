@@ -167,25 +167,27 @@ func (m *Model) Nearest(readings []Reading, n int) []Neighbour {
 		}
 		cells = append(cells, cell{u, r})
 	}
+	// Unit by unit, the training witnesses' readings lie side by side (see guide.trainingCells),
+	// so each cell of the witness reads one contiguous stretch.
+	nw := len(m.pb.TrainingWitnesses)
+	cols := g.trainingCells(m)
 	type count struct{ agree, compared int32 }
-	counts := make([]count, len(m.pb.TrainingWitnesses))
-	maxCompared := int32(0)
-	for i, tw := range m.pb.TrainingWitnesses {
-		var ct count
-		for _, c := range cells {
-			if c.u >= len(tw.Cells) {
-				continue
-			}
-			t := tw.Cells[c.u]
-			if t < 0 {
-				continue
-			}
-			ct.compared++
-			if t == c.r {
-				ct.agree++
-			}
+	counts := make([]count, nw)
+	for _, c := range cells {
+		col := cols[c.u*nw : c.u*nw+nw]
+		counts := counts[:len(col)]
+		r := c.r
+		for i, t := range col {
+			// Without branches (agreement is a coin toss to the branch predictor):
+			// extant = [t >= 0], and x | -x has its sign bit set exactly when x = t ^ r != 0.
+			// A lacuna (t < 0) never equals r, which is a reading index or -2.
+			x := t ^ r
+			counts[i].compared += 1 - int32(uint32(t)>>31)
+			counts[i].agree += 1 - int32(uint32(x|-x)>>31)
 		}
-		counts[i] = ct
+	}
+	maxCompared := int32(0)
+	for _, ct := range counts {
 		maxCompared = max(maxCompared, ct.compared)
 	}
 	if maxCompared == 0 {
@@ -225,4 +227,25 @@ func (m *Model) Nearest(readings []Reading, n int) []Neighbour {
 		}
 	}
 	return out
+}
+
+// trainingCells returns the training witnesses' reading indexes unit-major: cells[u*nw + i] is
+// training witness i's reading at unit u (-1 for a lacuna, or a unit beyond its cells), nw the
+// number of training witnesses. Built on first use.
+func (g *guide) trainingCells(m *Model) []int32 {
+	g.cellsOnce.Do(func() {
+		tws := m.pb.TrainingWitnesses
+		nw, nu := len(tws), len(m.pb.Units)
+		cells := make([]int32, nu*nw)
+		for i := range cells {
+			cells[i] = -1
+		}
+		for i, tw := range tws {
+			for u, t := range tw.Cells[:min(len(tw.Cells), nu)] {
+				cells[u*nw+i] = max(t, -1) // every lacuna as -1, never equal to a reading
+			}
+		}
+		g.cells = cells
+	})
+	return g.cells
 }

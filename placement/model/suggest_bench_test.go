@@ -1,6 +1,7 @@
 package model
 
 import (
+	"fmt"
 	"math/rand/v2"
 	"testing"
 
@@ -77,9 +78,10 @@ func BenchmarkPlaceFragment(b *testing.B) {
 	}
 }
 
-// BenchmarkPlace400: Place (with confidence features, mixture test and nearest witnesses) of a
-// 400-unit witness against the 3,000-reading, k = 12 model. Goal: about 40 µs or less per call
-// (the service's unary and streaming goals in api/bench_test.go rest on it), and few allocations.
+// BenchmarkPlace400: Place (with confidence features and mixture test, with and without the
+// nearest training witnesses) of a 400-unit witness against the 3,000-reading, k = 12 model.
+// Goal: about 40 µs or less per call without nearest witnesses, as the service places (its
+// unary and streaming goals in api/bench_test.go rest on it), and few allocations.
 func BenchmarkPlace400(b *testing.B) {
 	m, tr := benchModel(b)
 	c := tr.Collation
@@ -96,11 +98,15 @@ func BenchmarkPlace400(b *testing.B) {
 	}
 	ws := m.Engine().NewWorkspace()
 	m.guide()
-	b.ReportMetric(float64(len(m.Proto().Rows)), "rows")
-	b.ReportAllocs()
-	for b.Loop() {
-		if _, err := m.Place("W400", rd, ws); err != nil {
-			b.Fatal(err)
-		}
+	for _, near := range []int{0, NearestWitnesses} {
+		b.Run(fmt.Sprintf("nearest=%d", near), func(b *testing.B) {
+			b.ReportMetric(float64(len(m.Proto().Rows)), "rows")
+			b.ReportAllocs()
+			for b.Loop() {
+				if _, err := m.PlaceWith("W400", rd, ws, PlaceOptions{Nearest: near}); err != nil {
+					b.Fatal(err)
+				}
+			}
+		})
 	}
 }
