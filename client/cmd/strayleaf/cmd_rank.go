@@ -28,13 +28,13 @@ type rankRowJSON struct {
 }
 
 type rankJSON struct {
-	Collation     string        `json:"collation"`
-	Restarts      int           `json:"restarts"`
-	RecommendedK  int           `json:"recommended_k"`
-	Reason        string        `json:"reason"`
-	Table         []rankRowJSON `json:"table"`
-	Plot          string        `json:"plot,omitempty"`
-	TrainWitnesss int           `json:"training_witnesses"`
+	Collation         string        `json:"collation"`
+	Restarts          int           `json:"restarts"`
+	RecommendedK      int           `json:"recommended_k"`
+	Reason            string        `json:"reason"`
+	Table             []rankRowJSON `json:"table"`
+	Plot              string        `json:"plot,omitempty"`
+	TrainingWitnesses int           `json:"training_witnesses"`
 }
 
 // parseKRange reads "A:B" with 1 <= A <= B.
@@ -97,7 +97,7 @@ func runRank(ctx context.Context, args []string, stdout, stderr io.Writer) error
 	if err != nil {
 		return err
 	}
-	out := rankJSON{Collation: src.Path, Restarts: res.Restarts, RecommendedK: res.Recommended, Reason: res.Reason, TrainWitnesss: len(p.Train)}
+	out := rankJSON{Collation: src.Path, Restarts: res.Restarts, RecommendedK: res.Recommended, Reason: res.Reason, TrainingWitnesses: len(p.Train)}
 	for _, k := range res.Ks {
 		out.Table = append(out.Table, rankRowJSON{K: k.K, Objective: k.Objective, Cophenetic: k.Cophenetic, Dispersion: k.Dispersion,
 			SparsenessW: k.SparsenessW, SparsenessH: k.SparsenessH})

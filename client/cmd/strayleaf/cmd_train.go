@@ -19,22 +19,22 @@ func init() {
 }
 
 type trainJSON struct {
-	Bundle           string                  `json:"bundle"`
-	BundleSHA256     string                  `json:"bundle_sha256"`
-	Collation        string                  `json:"collation"`
-	CollationSHA256  string                  `json:"collation_sha256"`
-	Groups           []groupJSON             `json:"groups"`
-	WitnessGroups    map[string]string       `json:"witness_groups"`
-	SetAside         []string                `json:"set_aside"`
-	SetAsideDetail   *setAsideJSON           `json:"set_aside_detail"`
-	Fit              *pb.FitSummary          `json:"-"`
-	Objective        float64                 `json:"objective"`
-	RelativeError    float64                 `json:"relative_error"`
-	Iterations       int32                   `json:"iterations"`
-	Seed             uint64                  `json:"seed"`
-	Restarts         int32                   `json:"restarts"`
-	Calibration      *calibrationSummaryJSON `json:"calibration,omitempty"`
-	TrainingWitnesss int                     `json:"training_witnesses"`
+	Bundle            string                  `json:"bundle"`
+	BundleSHA256      string                  `json:"bundle_sha256"`
+	Collation         string                  `json:"collation"`
+	CollationSHA256   string                  `json:"collation_sha256"`
+	Groups            []groupJSON             `json:"groups"`
+	WitnessGroups     map[string]string       `json:"witness_groups"`
+	SetAside          []string                `json:"set_aside"`
+	SetAsideDetail    *setAsideJSON           `json:"set_aside_detail"`
+	Fit               *pb.FitSummary          `json:"-"`
+	Objective         float64                 `json:"objective"`
+	RelativeError     float64                 `json:"relative_error"`
+	Iterations        int32                   `json:"iterations"`
+	Seed              uint64                  `json:"seed"`
+	Restarts          int32                   `json:"restarts"`
+	Calibration       *calibrationSummaryJSON `json:"calibration,omitempty"`
+	TrainingWitnesses int                     `json:"training_witnesses"`
 }
 
 type groupJSON struct {
@@ -146,7 +146,7 @@ func runTrain(ctx context.Context, args []string, stdout, stderr io.Writer) erro
 	}
 	tw := tabwriter.NewWriter(stdout, 0, 0, 2, ' ', 0)
 	fmt.Fprintf(tw, "model\t%s (%d bytes, sha256 %s)\n", *out, len(b), rep.BundleSHA256[:16])
-	fmt.Fprintf(tw, "trained on\t%d witnesses, %d readings; %d witnesses set aside\n", rep.TrainingWitnesss, len(m.Rows), len(rep.SetAside))
+	fmt.Fprintf(tw, "trained on\t%d witnesses, %d readings; %d witnesses set aside\n", rep.TrainingWitnesses, len(m.Rows), len(rep.SetAside))
 	fmt.Fprintf(tw, "fit\trelative error %.3f after %d iterations (restart %d of %d)\n", rep.RelativeError, rep.Iterations, m.Fit.BestRestart+1, m.Train.Restarts)
 	if rep.Calibration != nil {
 		fmt.Fprintf(tw, "calibration\t%s, expected calibration error %.3f over %d simulated fragments\n", rep.Calibration.Method, rep.Calibration.ECE, rep.Calibration.N)
@@ -191,7 +191,7 @@ func trainModel(src *collationSource, opt model.TrainOptions) (*pb.Model, *prepa
 func trainReport(m *pb.Model, src *collationSource) *trainJSON {
 	rep := &trainJSON{Collation: src.Path, CollationSHA256: m.CollationSha256, WitnessGroups: map[string]string{}, SetAside: []string{},
 		Objective: m.Fit.Objective, RelativeError: m.Fit.RelativeError, Iterations: m.Fit.Iterations, Seed: m.Train.Seed, Restarts: m.Train.Restarts,
-		TrainingWitnesss: len(m.TrainingWitnesses)}
+		TrainingWitnesses: len(m.TrainingWitnesses)}
 	for _, tw := range m.TrainingWitnesses {
 		rep.WitnessGroups[tw.Witness] = tw.BestGroup
 	}
