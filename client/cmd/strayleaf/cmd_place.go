@@ -41,7 +41,6 @@ type placementJSON struct {
 	BlockMixture *bool         `json:"block_mixture,omitempty"`
 	Changes      []changeJSON  `json:"block_changes,omitempty"`
 	Error        string        `json:"error,omitempty"`
-	Extra        interface{}   `json:"-"`
 }
 
 type shareOut struct {

@@ -27,7 +27,6 @@ type trainJSON struct {
 	WitnessGroups     map[string]string       `json:"witness_groups"`
 	SetAside          []string                `json:"set_aside"`
 	SetAsideDetail    *setAsideJSON           `json:"set_aside_detail"`
-	Fit               *pb.FitSummary          `json:"-"`
 	Objective         float64                 `json:"objective"`
 	RelativeError     float64                 `json:"relative_error"`
 	Iterations        int32                   `json:"iterations"`
@@ -38,11 +37,10 @@ type trainJSON struct {
 }
 
 type groupJSON struct {
-	Group    string        `json:"group"`
-	Size     int32         `json:"size"`
-	Leading  []shareJSON   `json:"leading_witnesses"`
-	Profile  []profileJSON `json:"profile_readings"`
-	Readings int           `json:"-"`
+	Group   string        `json:"group"`
+	Size    int32         `json:"size"`
+	Leading []shareJSON   `json:"leading_witnesses"`
+	Profile []profileJSON `json:"profile_readings"`
 }
 
 type shareJSON struct {
