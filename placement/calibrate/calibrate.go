@@ -478,7 +478,7 @@ func witnessFragments(fm *model.Model, c *collation.Collation, w, fold, nu int, 
 	row := c.Row(w)
 	siglum := c.Witness(w)
 	all := readingsOf(c, row)
-	whole, err := fm.Place(siglum, all, ws)
+	whole, err := fm.PlaceWith(siglum, all, ws, model.PlaceOptions{})
 	if err != nil || whole.BestGroup == "" {
 		return nil, nil // a witness the fold model cannot place gives no answer to aim at
 	}
@@ -501,7 +501,7 @@ func witnessFragments(fm *model.Model, c *collation.Collation, w, fold, nu int, 
 				if len(rd) == 0 {
 					continue
 				}
-				p, err := fm.Place(siglum, rd, ws)
+				p, err := fm.PlaceWith(siglum, rd, ws, model.PlaceOptions{})
 				if err != nil {
 					continue // no unit the model groups by: nothing to calibrate
 				}

@@ -183,7 +183,7 @@ func (m *Model) assess(p *Placement, obs []placement.Observation, s *placeScratc
 	k := g.k
 	used := s.used[:0]
 	for _, o := range obs {
-		if un := m.pb.Units[o.Unit]; un.RowStart < un.RowEnd {
+		if m.hasRows[o.Unit] {
 			used = append(used, o.Unit)
 		}
 	}
@@ -223,7 +223,7 @@ func (m *Model) assess(p *Placement, obs []placement.Observation, s *placeScratc
 	p.Features = f
 	p.Confidence, p.Calibrated = g.confidenceOf(p)
 	if k > 1 && p.BestGroup != "" {
-		p.Mixture = m.mixtureTest(g, obs, best, second, p.Groups[1].Share, s)
+		p.Mixture = m.mixtureTest(g, obs, best, second, p.Groups[1].Share, ll, s)
 		p.Mixed = p.Mixture.Mixed
 	}
 }
@@ -289,7 +289,7 @@ func (m *Model) stability(g *guide, obs []placement.Observation, best int, h []f
 	seed := uint64(0x5eed)
 	n := 0
 	for _, o := range obs {
-		if un := m.pb.Units[o.Unit]; un.RowStart < un.RowEnd {
+		if m.hasRows[o.Unit] {
 			seed += mix64(uint64(o.Unit)<<32 ^ uint64(uint32(o.Row)))
 			n++
 		}
@@ -339,7 +339,7 @@ func (m *Model) stability(g *guide, obs []placement.Observation, best int, h []f
 	copy(fill, start[:nb])
 	i := 0
 	for _, o := range obs {
-		if un := m.pb.Units[o.Unit]; un.RowStart == un.RowEnd {
+		if !m.hasRows[o.Unit] {
 			continue
 		}
 		b := order[i] % nb
@@ -347,7 +347,7 @@ func (m *Model) stability(g *guide, obs []placement.Observation, best int, h []f
 		grams[fill[b]] = m.engine.UnitGram(o.Unit)
 		fill[b]++
 		if o.Row >= 0 {
-			w := m.pb.Rows[o.Row].Weight
+			w := m.rowWeight[o.Row]
 			row := prof[o.Row*k : o.Row*k+k]
 			cb := cross[b*k : (b+1)*k]
 			for j, v := range row {

@@ -235,8 +235,7 @@ func (g *guide) coverage(units []int) float64 {
 // logLik adds to ll[g] the log-probability, under each group's reading profile, of the
 // observed reading: row r at unit u, or another reading (r < 0). Units with no rows add nothing.
 func (g *guide) logLik(ll []float64, u, r int, m *Model) {
-	un := m.pb.Units[u]
-	if un.RowStart == un.RowEnd {
+	if !m.hasRows[u] {
 		return
 	}
 	k := g.k

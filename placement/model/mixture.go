@@ -44,12 +44,13 @@ type Mixture struct {
 }
 
 // mixtureTest runs the test for the groups a (first) and b (second) over the used observations.
-func (m *Model) mixtureTest(g *guide, obs []placement.Observation, a, b int, share float64, sc *placeScratch) *Mixture {
+// ll[a] and ll[b] must be l(0) and l(1), the sums of log P(r_u | a) and log P(r_u | b) over the
+// same observations in the same order (as assess computes them from the stored logarithms).
+func (m *Model) mixtureTest(g *guide, obs []placement.Observation, a, b int, share float64, ll []float64, sc *placeScratch) *Mixture {
 	k := g.k
 	pa, pbv := sc.pa[:0], sc.pb[:0]
 	for _, o := range obs {
-		un := m.pb.Units[o.Unit]
-		if un.RowStart == un.RowEnd {
+		if !m.hasRows[o.Unit] {
 			continue
 		}
 		var row []float64
@@ -62,7 +63,7 @@ func (m *Model) mixtureTest(g *guide, obs []placement.Observation, a, b int, sha
 		pbv = append(pbv, row[b])
 	}
 	sc.pa, sc.pb = pa, pbv
-	s, lr := mixtureLR(pa, pbv)
+	s, lr := mixtureLRFrom(pa, pbv, ll[a], ll[b])
 	mx := &Mixture{Primary: m.groupIDs[a], Secondary: m.groupIDs[b], Share: share, LikelihoodShare: s, LikelihoodRatio: lr}
 	mx.Mixed = share >= MixedShare && lr >= MixtureCritical
 	return mx
@@ -73,6 +74,18 @@ func (m *Model) mixtureTest(g *guide, obs []placement.Observation, a, b int, sha
 // of the derivative is found by Newton's method kept inside a shrinking bracket (a bisection
 // step whenever Newton's would leave it). All a_i, b_i must be positive.
 func mixtureLR(a, b []float64) (float64, float64) {
+	l0, l1 := 0.0, 0.0
+	for i := range a {
+		l0 += math.Log(a[i])
+		l1 += math.Log(b[i])
+	}
+	return mixtureLRFrom(a, b, l0, l1)
+}
+
+// mixtureLRFrom is mixtureLR given l(0) = sum_i log a_i and l(1) = sum_i log b_i, which a
+// placement has already summed from the stored log-probabilities (the same values: at s = 0
+// and 1 the mixed probability is a_i or b_i exactly).
+func mixtureLRFrom(a, b []float64, l0, l1 float64) (float64, float64) {
 	if len(a) == 0 {
 		return 0, 0
 	}
@@ -123,7 +136,16 @@ func mixtureLR(a, b []float64) (float64, float64) {
 			s = next
 		}
 	}
-	return s, math.Max(0, 2*(ll(s)-math.Max(ll(0), ll(1))))
+	var ls float64
+	switch s {
+	case 0:
+		ls = l0
+	case 1:
+		ls = l1
+	default:
+		ls = ll(s)
+	}
+	return s, math.Max(0, 2*(ls-math.Max(l0, l1)))
 }
 
 // NearestWitnesses is the number of nearest training witnesses a placement names.

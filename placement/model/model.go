@@ -20,6 +20,12 @@ type Model struct {
 	w         *mat.Dense
 	engine    *placement.Engine
 	unitIndex map[string]int
+	// unitIDs[u] is unit u's id and hasRows[u] whether it keeps rows in W, flat copies of the
+	// proto's units for the placement path (which reads them for every observation).
+	unitIDs []string
+	hasRows []bool
+	// rowWeight[r] is row r's IDF weight.
+	rowWeight []float64
 	// lookup[u] finds the row of a reading label of unit u (see unitLookup).
 	lookup    []unitLookup
 	groupIDs  []string
@@ -82,7 +88,8 @@ func FromProto(m *pb.Model) (*Model, error) {
 	if len(m.Groups) != k {
 		return nil, fmt.Errorf("model: %d group summaries for %d groups", len(m.Groups), k)
 	}
-	out := &Model{pb: m, unitIndex: make(map[string]int, len(m.Units)), lookup: make([]unitLookup, len(m.Units))}
+	out := &Model{pb: m, unitIndex: make(map[string]int, len(m.Units)), lookup: make([]unitLookup, len(m.Units)),
+		unitIDs: make([]string, len(m.Units)), hasRows: make([]bool, len(m.Units))}
 	unitRows := make([][2]int, len(m.Units))
 	weights := make([]float64, nr)
 	for u, un := range m.Units {
@@ -90,6 +97,8 @@ func FromProto(m *pb.Model) (*Model, error) {
 			return nil, fmt.Errorf("model: unit %q listed twice", un.Id)
 		}
 		out.unitIndex[un.Id] = u
+		out.unitIDs[u] = un.Id
+		out.hasRows[u] = un.RowStart < un.RowEnd
 		lo, hi := int(un.RowStart), int(un.RowEnd)
 		if lo < 0 || hi < lo || hi > nr {
 			return nil, fmt.Errorf("model: unit %q has row range [%d,%d) outside the %d rows", un.Id, lo, hi, nr)
@@ -127,6 +136,7 @@ func FromProto(m *pb.Model) (*Model, error) {
 			return nil, fmt.Errorf("model: row %d lies outside the row range of its unit %q", i, m.Units[row.Unit].Id)
 		}
 	}
+	out.rowWeight = weights
 	out.w = mat.NewDense(nr, k, m.Profile)
 	eng, err := placement.NewEngine(out.w, unitRows, weights)
 	if err != nil {

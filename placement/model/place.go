@@ -96,12 +96,22 @@ func (m *Model) Observe(witness string, readings []Reading, obs []placement.Obse
 	return m.observe(witness, readings, obs, s)
 }
 
+// unitScan is how many units after the previous one findUnit compares before it asks the map:
+// a witness that lists its units in the model's order with short gaps (a scattered fragment)
+// is found by a few comparisons of short strings, cheaper than hashing the id.
+const unitScan = 4
+
 // findUnit returns the index of unit id. Witnesses usually list their units in the model's order,
-// so the unit after the previous one (guess) is tried first, by one string comparison, before
-// the map.
+// so the unitScan units from the one after the previous (guess) are tried first, by string
+// comparison, before the map.
 func (m *Model) findUnit(id string, guess int) (int, bool) {
-	if guess >= 0 && guess < len(m.pb.Units) && m.pb.Units[guess].Id == id {
-		return guess, true
+	if guess >= 0 {
+		ids := m.unitIDs[min(guess, len(m.unitIDs)):min(guess+unitScan, len(m.unitIDs))]
+		for i, s := range ids {
+			if s == id {
+				return guess + i, true
+			}
+		}
 	}
 	u, ok := m.unitIndex[id]
 	return u, ok
@@ -136,8 +146,7 @@ func (m *Model) observe(witness string, readings []Reading, obs []placement.Obse
 			continue
 		}
 		s.seen[u], s.at[u] = gen, int32(i)
-		un := m.pb.Units[u]
-		if un.RowStart == un.RowEnd {
+		if !m.hasRows[u] {
 			p.UninformativeUnits = append(p.UninformativeUnits, r.Unit)
 			continue
 		}
