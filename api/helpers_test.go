@@ -84,20 +84,9 @@ func modelReadings(rs []client.Reading) []model.Reading {
 }
 
 // localPlacement is what the API must answer for w against m: the model's own placement in the
-// client's shape.
+// client's shape, with nothing optional asked for.
 func localPlacement(t testing.TB, m *model.Model, ref string, w client.Witness) *client.Placement {
-	t.Helper()
-	p, err := m.Place(w.Siglum, modelReadings(w.Readings), nil)
-	if err != nil {
-		t.Fatalf("local placement of %s: %v", w.Siglum, err)
-	}
-	out := &client.Placement{Witness: p.Witness, Model: ref, BestGroup: p.BestGroup, Confidence: p.Confidence,
-		CoveredUnits: p.CoveredUnits, UsedUnits: p.UsedUnits, UnknownReadings: nonNil(p.UnknownReadings),
-		UninformativeUnits: nonNil(p.UninformativeUnits), RelativeResidual: p.RelativeResidual}
-	for _, g := range p.Groups {
-		out.Groups = append(out.Groups, client.GroupShare{Group: g.Group, Share: g.Share})
-	}
-	return out
+	return localPlacementWith(t, m, ref, w, client.PlaceOptions{})
 }
 
 // localSuggestions is what the API must answer to Suggest: the model's own, in the client's

@@ -142,9 +142,14 @@ func contains(s []string, x string) bool {
 func placementFromProto(p *pb.Placement) *client.Placement {
 	out := &client.Placement{Witness: p.GetWitness(), Model: p.GetModel(), BestGroup: p.GetBestGroup(), Confidence: p.GetConfidence(),
 		CoveredUnits: int(p.GetCoveredUnits()), UsedUnits: int(p.GetUsedUnits()), UnknownReadings: nonNil(p.GetUnknownReadings()),
-		UninformativeUnits: nonNil(p.GetUninformativeUnits()), RelativeResidual: p.GetRelativeResidual()}
+		UninformativeUnits: nonNil(p.GetUninformativeUnits()), RelativeResidual: p.GetRelativeResidual(),
+		InformativeCoverage: p.GetInformativeCoverage(), Calibrated: p.GetCalibrated(), Mixed: p.GetMixed()}
 	for _, g := range p.GetGroups() {
 		out.Groups = append(out.Groups, client.GroupShare{Group: g.GetGroup(), Share: g.GetShare()})
+	}
+	if mx := p.GetMixture(); mx != nil {
+		out.Mixture = &client.Mixture{Primary: mx.GetPrimary(), Secondary: mx.GetSecondary(), SecondaryShare: mx.GetSecondaryShare(),
+			LikelihoodShare: mx.GetLikelihoodShare(), LikelihoodRatio: mx.GetLikelihoodRatio()}
 	}
 	return out
 }

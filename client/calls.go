@@ -7,6 +7,7 @@ import (
 	"errors"
 	"fmt"
 	"io"
+	"math"
 	"time"
 
 	"google.golang.org/grpc/codes"
@@ -45,6 +46,69 @@ type Placement struct {
 	UnknownReadings    []string     `json:"unknown_readings"`
 	UninformativeUnits []string     `json:"uninformative_units"`
 	RelativeResidual   float64      `json:"relative_residual"`
+	// InformativeCoverage is the share of the model's total informativeness the used units
+	// carry; Calibrated says Confidence was read through the model's calibration.
+	InformativeCoverage float64 `json:"informative_coverage"`
+	Calibrated          bool    `json:"calibrated"`
+	// Mixed is the mixture test's verdict on Mixture (nil with one group or no placement).
+	Mixed   bool     `json:"mixed"`
+	Mixture *Mixture `json:"mixture,omitempty"`
+	// Nearest are the nearest training witnesses by agreement, when asked for
+	// (PlaceOptions.Nearest).
+	Nearest []Neighbour `json:"nearest,omitempty"`
+	// Sections, BlockMixture and Changes are given when asked for (PlaceOptions.BySection).
+	Sections     []SectionPlacement `json:"sections,omitempty"`
+	BlockMixture *bool              `json:"block_mixture,omitempty"`
+	Changes      []BlockChange      `json:"block_changes,omitempty"`
+}
+
+// Mixture is the mixture reading of a placement's two largest shares: SecondaryShare is the
+// secondary group's share, LikelihoodShare its maximum-likelihood share under the groups'
+// reading probabilities and LikelihoodRatio the statistic of the test behind Placement.Mixed.
+type Mixture struct {
+	Primary         string  `json:"primary"`
+	Secondary       string  `json:"secondary"`
+	SecondaryShare  float64 `json:"secondary_share"`
+	LikelihoodShare float64 `json:"likelihood_share"`
+	LikelihoodRatio float64 `json:"likelihood_ratio"`
+}
+
+// Neighbour is a training witness compared with the placed one: Agree of UnitsCompared units
+// have the same reading (Agreement = Agree / UnitsCompared); BestGroup is its own group.
+type Neighbour struct {
+	Witness       string  `json:"witness"`
+	BestGroup     string  `json:"best_group"`
+	Agree         int     `json:"agree"`
+	UnitsCompared int     `json:"units_compared"`
+	Agreement     float64 `json:"agreement"`
+}
+
+// SectionPlacement is the placement of one section's readings (BestGroup empty and Confidence
+// 0 when the section has no reading the model places by).
+type SectionPlacement struct {
+	Section      string  `json:"section"`
+	BestGroup    string  `json:"best_group"`
+	Confidence   float64 `json:"confidence"`
+	CoveredUnits int     `json:"covered_units"`
+}
+
+// BlockChange is one change of exemplar: AfterSection is the last section placed with
+// FromGroup, AtSection the first placed with ToGroup.
+type BlockChange struct {
+	AfterSection string `json:"after_section"`
+	AtSection    string `json:"at_section"`
+	FromGroup    string `json:"from_group"`
+	ToGroup      string `json:"to_group"`
+}
+
+// PlaceOptions choose the optional parts of a placement.
+type PlaceOptions struct {
+	// Nearest is how many nearest training witnesses to name (0: none; they cost the server a
+	// comparison with every training witness).
+	Nearest int
+	// BySection also places each section's readings separately and reads a block mixture
+	// from them (the model's units must carry sections).
+	BySection bool
 }
 
 func nonNil(s []string) []string {
@@ -58,9 +122,34 @@ func placementFrom(p *pb.Placement) *Placement {
 	out := &Placement{Witness: p.GetWitness(), Model: p.GetModel(), BestGroup: p.GetBestGroup(), Confidence: p.GetConfidence(),
 		CoveredUnits: int(p.GetCoveredUnits()), UsedUnits: int(p.GetUsedUnits()), UnknownReadings: nonNil(p.GetUnknownReadings()),
 		UninformativeUnits: nonNil(p.GetUninformativeUnits()), RelativeResidual: p.GetRelativeResidual(),
+		InformativeCoverage: p.GetInformativeCoverage(), Calibrated: p.GetCalibrated(), Mixed: p.GetMixed(),
 		Groups: make([]GroupShare, len(p.GetGroups()))}
 	for i, g := range p.GetGroups() {
 		out.Groups[i] = GroupShare{Group: g.GetGroup(), Share: g.GetShare()}
+	}
+	if mx := p.GetMixture(); mx != nil {
+		out.Mixture = &Mixture{Primary: mx.GetPrimary(), Secondary: mx.GetSecondary(), SecondaryShare: mx.GetSecondaryShare(),
+			LikelihoodShare: mx.GetLikelihoodShare(), LikelihoodRatio: mx.GetLikelihoodRatio()}
+	}
+	if ns := p.GetNearest(); len(ns) > 0 {
+		out.Nearest = make([]Neighbour, len(ns))
+		for i, n := range ns {
+			out.Nearest[i] = Neighbour{Witness: n.GetWitness(), BestGroup: n.GetBestGroup(), Agree: int(n.GetAgree()),
+				UnitsCompared: int(n.GetUnitsCompared()), Agreement: n.GetAgreement()}
+		}
+	}
+	if p.BlockMixture != nil {
+		block := p.GetBlockMixture()
+		out.BlockMixture = &block
+		out.Sections = make([]SectionPlacement, len(p.GetSections()))
+		for i, s := range p.GetSections() {
+			out.Sections[i] = SectionPlacement{Section: s.GetSection(), BestGroup: s.GetBestGroup(), Confidence: s.GetConfidence(),
+				CoveredUnits: int(s.GetCoveredUnits())}
+		}
+		out.Changes = make([]BlockChange, len(p.GetBlockChanges()))
+		for i, c := range p.GetBlockChanges() {
+			out.Changes[i] = BlockChange{AfterSection: c.GetAfterSection(), AtSection: c.GetAtSection(), FromGroup: c.GetFromGroup(), ToGroup: c.GetToGroup()}
+		}
 	}
 	return out
 }
@@ -77,7 +166,13 @@ func readingsProto(rs []Reading) []*pb.WitnessReading {
 
 // Place places one partial witness against the model a reference names.
 func (c *Client) Place(ctx context.Context, model, witness string, readings []Reading) (*Placement, error) {
-	resp, err := c.places.Place(ctx, &pb.PlaceRequest{Model: model, Witness: witness, Readings: readingsProto(readings)})
+	return c.PlaceWith(ctx, model, witness, readings, PlaceOptions{})
+}
+
+// PlaceWith is Place with the optional parts chosen by opt.
+func (c *Client) PlaceWith(ctx context.Context, model, witness string, readings []Reading, opt PlaceOptions) (*Placement, error) {
+	resp, err := c.places.Place(ctx, &pb.PlaceRequest{Model: model, Witness: witness, Readings: readingsProto(readings),
+		Nearest: int32(min(opt.Nearest, math.MaxInt32)), BySection: opt.BySection})
 	if err != nil {
 		return nil, c.wrap("place "+witness, err)
 	}
@@ -98,6 +193,11 @@ type StreamResult struct {
 // once by the server, so all get the same version). fn is called for each answer, in input
 // order; an error from fn ends the stream. Witnesses are sent while answers are read.
 func (c *Client) PlaceAll(ctx context.Context, model string, witnesses []Witness, fn func(StreamResult) error) error {
+	return c.PlaceAllWith(ctx, model, witnesses, PlaceOptions{}, fn)
+}
+
+// PlaceAllWith is PlaceAll with the optional parts of every placement chosen by opt.
+func (c *Client) PlaceAllWith(ctx context.Context, model string, witnesses []Witness, opt PlaceOptions, fn func(StreamResult) error) error {
 	ctx, cancel := context.WithCancel(ctx)
 	defer cancel()
 	stream, err := c.places.PlaceStream(ctx)
@@ -107,7 +207,8 @@ func (c *Client) PlaceAll(ctx context.Context, model string, witnesses []Witness
 	sendErr := make(chan error, 1)
 	go func() {
 		for i, w := range witnesses {
-			req := &pb.PlaceStreamRequest{Witness: w.Siglum, Readings: readingsProto(w.Readings)}
+			req := &pb.PlaceStreamRequest{Witness: w.Siglum, Readings: readingsProto(w.Readings),
+				Nearest: int32(min(opt.Nearest, math.MaxInt32)), BySection: opt.BySection}
 			if i == 0 {
 				req.Model = model
 			}

@@ -54,8 +54,16 @@ func (s *Server) resolve(ref, field string) (*model.Model, modelstore.Ref, *prob
 	return m, r, nil
 }
 
+// placeAsk is what a request asks for beyond the placement itself.
+type placeAsk struct {
+	// nearest is how many nearest training witnesses to name (0: none).
+	nearest int32
+	// bySection asks for each section's placement and the block-mixture reading.
+	bySection bool
+}
+
 // placeOne checks and places one witness. ref is the version used, for the answer.
-func (s *Server) placeOne(ctx context.Context, m *model.Model, ref string, witness string, readings []*pb.WitnessReading) (*pb.Placement, *problem) {
+func (s *Server) placeOne(ctx context.Context, m *model.Model, ref string, witness string, readings []*pb.WitnessReading, ask placeAsk) (*pb.Placement, *problem) {
 	if p := contextProblem(ctx); p != nil {
 		return nil, p
 	}
@@ -63,9 +71,12 @@ func (s *Server) placeOne(ctx context.Context, m *model.Model, ref string, witne
 		return nil, badRequest("witness "+siglumOrNone(witness)+": too many readings",
 			violation("readings", "%d readings; at most %d per witness", n, s.limits.MaxUnitsPerWitness))
 	}
-	var noSiglum []*pb.FieldViolation
+	var bad []*pb.FieldViolation
 	if witness == "" {
-		noSiglum = append(noSiglum, violation("witness", "empty siglum; name the witness or fragment"))
+		bad = append(bad, violation("witness", "empty siglum; name the witness or fragment"))
+	}
+	if ask.nearest < 0 {
+		bad = append(bad, violation("nearest", "%d; expected 0 (none) or more nearest training witnesses", ask.nearest))
 	}
 	pool := s.pools.pool(m)
 	sc := pool.Get().(*scratch)
@@ -75,30 +86,53 @@ func (s *Server) placeOne(ctx context.Context, m *model.Model, ref string, witne
 		rs = append(rs, model.Reading{Unit: r.GetUnit(), Reading: r.GetReading()})
 	}
 	sc.readings = rs
+	// The scratch readings are reused by the next call: let go of the request's strings.
+	defer clear(sc.readings)
 	var (
 		pl  *model.Placement
 		err error
 	)
-	if noSiglum != nil {
+	if bad != nil {
 		_, _, err = m.Observe(witness, rs, nil)
 		if err == nil {
-			return nil, badRequest("witness has no siglum", noSiglum...)
+			msg := "witness has no siglum"
+			if witness != "" {
+				msg = "witness " + witness + ": bad placement request"
+			}
+			return nil, badRequest(msg, bad...)
 		}
 	} else {
-		// The answer carries no nearest witnesses, so they are not looked for.
-		pl, err = m.PlaceWith(witness, rs, sc.ws, model.PlaceOptions{})
+		// Nearest witnesses cost a comparison with every training witness: only when asked.
+		pl, err = m.PlaceWith(witness, rs, sc.ws, model.PlaceOptions{Nearest: int(ask.nearest)})
 	}
 	if err != nil {
-		var in *model.InputError
-		switch {
-		case errors.As(err, &in):
-			return nil, fromInputError(in, noSiglum...)
-		case errors.Is(err, model.ErrNoCoverage):
-			return nil, badRequest(err.Error(), violation("readings", "none of the units given carries grouping signal in %s; check more units", ref))
-		}
-		return nil, &problem{code: codes.Internal, msg: err.Error()}
+		return nil, placeProblem(err, ref, bad)
 	}
-	return placementProto(ref, pl), nil
+	out := placementProto(ref, pl)
+	if ask.bySection {
+		sp, err := m.PlaceBySection(witness, rs, sc.ws)
+		if err != nil {
+			if errors.Is(err, model.ErrNoSections) {
+				return nil, &problem{code: codes.FailedPrecondition, msg: "witness " + witness + ": cannot place by section: " + ref + ": " + err.Error(),
+					violations: []*pb.FieldViolation{violation("by_section", "%s has no sections; ask without by_section", ref)}}
+			}
+			return nil, placeProblem(err, ref, nil)
+		}
+		addSections(out, sp)
+	}
+	return out, nil
+}
+
+// placeProblem turns a placement error into the answer's problem.
+func placeProblem(err error, ref string, extra []*pb.FieldViolation) *problem {
+	var in *model.InputError
+	switch {
+	case errors.As(err, &in):
+		return fromInputError(in, extra...)
+	case errors.Is(err, model.ErrNoCoverage):
+		return badRequest(err.Error(), violation("readings", "none of the units given carries grouping signal in %s; check more units", ref))
+	}
+	return &problem{code: codes.Internal, msg: err.Error()}
 }
 
 // placementProto converts a placement for the wire, with one allocation for all group shares.
@@ -109,10 +143,39 @@ func placementProto(ref string, p *model.Placement) *pb.Placement {
 		shares[i].Group, shares[i].Share = g.Group, g.Share
 		groups[i] = &shares[i]
 	}
-	return &pb.Placement{
+	out := &pb.Placement{
 		Model: ref, Witness: p.Witness, BestGroup: p.BestGroup, Groups: groups, Confidence: p.Confidence,
 		CoveredUnits: int32(p.CoveredUnits), UnknownReadings: p.UnknownReadings, UsedUnits: int32(p.UsedUnits),
 		UninformativeUnits: p.UninformativeUnits, RelativeResidual: p.RelativeResidual,
+		InformativeCoverage: p.InformativeCoverage, Calibrated: p.Calibrated, Mixed: p.Mixed,
+	}
+	if mx := p.Mixture; mx != nil {
+		out.Mixture = &pb.Mixture{Primary: mx.Primary, Secondary: mx.Secondary, SecondaryShare: mx.Share,
+			LikelihoodShare: mx.LikelihoodShare, LikelihoodRatio: mx.LikelihoodRatio}
+	}
+	if len(p.Nearest) > 0 {
+		near := make([]pb.Neighbour, len(p.Nearest))
+		out.Nearest = make([]*pb.Neighbour, len(p.Nearest))
+		for i, n := range p.Nearest {
+			near[i].Witness, near[i].BestGroup, near[i].Agreement = n.Witness, n.BestGroup, n.Agreement
+			near[i].Agree, near[i].UnitsCompared = int32(n.Agree), int32(n.Compared)
+			out.Nearest[i] = &near[i]
+		}
+	}
+	return out
+}
+
+// addSections copies a placement by section into out.
+func addSections(out *pb.Placement, sp *model.SectionedPlacement) {
+	block := sp.BlockMixture
+	out.BlockMixture = &block
+	out.Sections = make([]*pb.SectionPlacement, len(sp.Sections))
+	for i, s := range sp.Sections {
+		out.Sections[i] = &pb.SectionPlacement{Section: s.Section, BestGroup: s.BestGroup, Confidence: s.Confidence, CoveredUnits: int32(s.CoveredUnits)}
+	}
+	out.BlockChanges = make([]*pb.BlockChange, len(sp.Changes))
+	for i, c := range sp.Changes {
+		out.BlockChanges[i] = &pb.BlockChange{AfterSection: c.After, AtSection: c.At, FromGroup: c.From, ToGroup: c.To}
 	}
 }
 
@@ -122,7 +185,7 @@ func (s *Server) Place(ctx context.Context, req *pb.PlaceRequest) (*pb.PlaceResp
 	if prob != nil {
 		return nil, prob.status()
 	}
-	p, prob := s.placeOne(ctx, m, r.String(), req.GetWitness(), req.GetReadings())
+	p, prob := s.placeOne(ctx, m, r.String(), req.GetWitness(), req.GetReadings(), placeAsk{nearest: req.GetNearest(), bySection: req.GetBySection()})
 	s.metrics.Placed(r.Name, prob == nil)
 	if prob != nil {
 		return nil, prob.status()
@@ -300,7 +363,8 @@ func (s *Server) placeSlot(ctx context.Context, sl *streamSlot) {
 	prob := sl.prob
 	if prob == nil {
 		var p *pb.Placement
-		p, prob = s.placeOne(ctx, sl.m, sl.ref.String(), sl.req.GetWitness(), sl.req.GetReadings())
+		p, prob = s.placeOne(ctx, sl.m, sl.ref.String(), sl.req.GetWitness(), sl.req.GetReadings(),
+			placeAsk{nearest: sl.req.GetNearest(), bySection: sl.req.GetBySection()})
 		s.metrics.Placed(sl.ref.Name, prob == nil)
 		if prob == nil {
 			resp.Result = &pb.PlaceStreamResponse_Placement{Placement: p}

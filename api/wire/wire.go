@@ -1,7 +1,7 @@
 // Package wire is the gRPC codec of strayleaf: standard protobuf encoding throughout, with a
 // hand-written encoder and decoder for the placement requests (PlaceRequest and
-// PlaceStreamRequest), which carry hundreds of small readings per witness and dominate the cost
-// of the generic protobuf code. The bytes on the wire are exactly protobuf's: a peer using any
+// PlaceStreamRequest: model, witness, readings, nearest, by_section), which carry hundreds of
+// small readings per witness and dominate the cost of the generic protobuf code. The bytes on the wire are exactly protobuf's: a peer using any
 // other protobuf library reads and writes them alike.
 //
 // The decoder copies a request's bytes once and makes every string of the request point into
@@ -35,29 +35,35 @@ type codec struct{ std encoding.CodecV2 }
 func (codec) Name() string { return Name }
 
 func (c codec) Marshal(v any) (mem.BufferSlice, error) {
+	var r Request
 	switch m := v.(type) {
 	case *pb.PlaceRequest:
-		b := make([]byte, 0, RequestSize(m.GetModel(), m.GetWitness(), m.GetReadings()))
-		return mem.BufferSlice{mem.SliceBuffer(AppendRequest(b, m.GetModel(), m.GetWitness(), m.GetReadings()))}, nil
+		r = Request{Model: m.GetModel(), Witness: m.GetWitness(), Readings: m.GetReadings(), Nearest: m.GetNearest(), BySection: m.GetBySection()}
 	case *pb.PlaceStreamRequest:
-		b := make([]byte, 0, RequestSize(m.GetModel(), m.GetWitness(), m.GetReadings()))
-		return mem.BufferSlice{mem.SliceBuffer(AppendRequest(b, m.GetModel(), m.GetWitness(), m.GetReadings()))}, nil
+		r = Request{Model: m.GetModel(), Witness: m.GetWitness(), Readings: m.GetReadings(), Nearest: m.GetNearest(), BySection: m.GetBySection()}
+	default:
+		return c.std.Marshal(v)
 	}
-	return c.std.Marshal(v)
+	b := make([]byte, 0, RequestSize(&r))
+	return mem.BufferSlice{mem.SliceBuffer(AppendRequest(b, &r))}, nil
 }
 
 func (c codec) Unmarshal(data mem.BufferSlice, v any) error {
 	switch m := v.(type) {
 	case *pb.PlaceRequest:
 		buf := data.Materialize()
-		if decodeRequest(buf, &m.Model, &m.Witness, &m.Readings) == nil {
+		var r Request
+		if decodeRequest(buf, &r) == nil {
+			m.Model, m.Witness, m.Readings, m.Nearest, m.BySection = r.Model, r.Witness, r.Readings, r.Nearest, r.BySection
 			return nil
 		}
 		m.Reset()
 		return proto.Unmarshal(buf, m)
 	case *pb.PlaceStreamRequest:
 		buf := data.Materialize()
-		if decodeRequest(buf, &m.Model, &m.Witness, &m.Readings) == nil {
+		var r Request
+		if decodeRequest(buf, &r) == nil {
+			m.Model, m.Witness, m.Readings, m.Nearest, m.BySection = r.Model, r.Witness, r.Readings, r.Nearest, r.BySection
 			return nil
 		}
 		m.Reset()
@@ -66,22 +72,40 @@ func (c codec) Unmarshal(data mem.BufferSlice, v any) error {
 	return c.std.Unmarshal(data, v)
 }
 
-// Field numbers shared by PlaceRequest, PlaceStreamRequest and SuggestRequest (model 1,
-// witness 2, readings 3) and WitnessReading (unit 1, reading 2).
+// Request is the content of a placement request: PlaceRequest and PlaceStreamRequest have the
+// same fields under the same numbers.
+type Request struct {
+	Model, Witness string
+	Readings       []*pb.WitnessReading
+	Nearest        int32
+	BySection      bool
+}
+
+// Field numbers shared by PlaceRequest and PlaceStreamRequest (model 1, witness 2, readings 3,
+// nearest 4, by_section 5) and WitnessReading (unit 1, reading 2).
 const (
-	fieldModel    = 1
-	fieldWitness  = 2
-	fieldReadings = 3
-	fieldUnit     = 1
-	fieldReading  = 2
+	fieldModel     = 1
+	fieldWitness   = 2
+	fieldReadings  = 3
+	fieldNearest   = 4
+	fieldBySection = 5
+	fieldUnit      = 1
+	fieldReading   = 2
 )
 
 // RequestSize is the length of the encoding AppendRequest writes.
-func RequestSize(model, witness string, readings []*pb.WitnessReading) int {
-	n := stringSize(model) + stringSize(witness)
-	for _, r := range readings {
-		inner := stringSize(r.GetUnit()) + stringSize(r.GetReading())
+func RequestSize(r *Request) int {
+	n := stringSize(r.Model) + stringSize(r.Witness)
+	for _, rd := range r.Readings {
+		inner := stringSize(rd.GetUnit()) + stringSize(rd.GetReading())
 		n += 1 + protowire.SizeBytes(inner)
+	}
+	if r.Nearest != 0 {
+		// An int32 is written as its 64-bit sign extension, as protobuf does.
+		n += 1 + protowire.SizeVarint(uint64(int64(r.Nearest)))
+	}
+	if r.BySection {
+		n += 2
 	}
 	return n
 }
@@ -94,17 +118,25 @@ func stringSize(s string) int {
 }
 
 // AppendRequest appends the protobuf encoding of a placement request to b, as protobuf-go
-// writes it (fields in number order, empty strings left out).
-func AppendRequest(b []byte, model, witness string, readings []*pb.WitnessReading) []byte {
-	b = appendString(b, fieldModel, model)
-	b = appendString(b, fieldWitness, witness)
-	for _, r := range readings {
+// writes it (fields in number order, zero values left out).
+func AppendRequest(b []byte, req *Request) []byte {
+	b = appendString(b, fieldModel, req.Model)
+	b = appendString(b, fieldWitness, req.Witness)
+	for _, r := range req.Readings {
 		unit, reading := r.GetUnit(), r.GetReading()
 		n := stringSize(unit) + stringSize(reading)
 		b = protowire.AppendTag(b, fieldReadings, protowire.BytesType)
 		b = protowire.AppendVarint(b, uint64(n))
 		b = appendString(b, fieldUnit, unit)
 		b = appendString(b, fieldReading, reading)
+	}
+	if req.Nearest != 0 {
+		b = protowire.AppendTag(b, fieldNearest, protowire.VarintType)
+		b = protowire.AppendVarint(b, uint64(int64(req.Nearest)))
+	}
+	if req.BySection {
+		b = protowire.AppendTag(b, fieldBySection, protowire.VarintType)
+		b = protowire.AppendVarint(b, 1)
 	}
 	return b
 }
@@ -147,8 +179,8 @@ func bytesField(b []byte) (start, end int) {
 	return n - len(v), n
 }
 
-// decodeRequest decodes buf, which it keeps: the strings point into it.
-func decodeRequest(buf []byte, model, witness *string, readings *[]*pb.WitnessReading) error {
+// decodeRequest decodes buf into r; it keeps buf: the strings point into it.
+func decodeRequest(buf []byte, r *Request) error {
 	if len(buf) == 0 {
 		return nil
 	}
@@ -184,6 +216,19 @@ func decodeRequest(buf []byte, model, witness *string, readings *[]*pb.WitnessRe
 	for off := 0; off < len(buf); {
 		num, typ, tl := tag(buf[off:])
 		off += tl
+		if num == fieldNearest || num == fieldBySection {
+			if typ != protowire.VarintType {
+				return errFallback
+			}
+			v, vl := protowire.ConsumeVarint(buf[off:])
+			off += vl
+			if num == fieldNearest {
+				r.Nearest = int32(v)
+			} else {
+				r.BySection = protowire.DecodeBool(v)
+			}
+			continue
+		}
 		if num != fieldModel && num != fieldWitness && num != fieldReadings {
 			if typ == protowire.BytesType {
 				_, end := bytesField(buf[off:])
@@ -205,13 +250,13 @@ func decodeRequest(buf []byte, model, witness *string, readings *[]*pb.WitnessRe
 				return errFallback
 			}
 			if num == fieldModel {
-				*model = s
+				r.Model = s
 			} else {
-				*witness = s
+				r.Witness = s
 			}
 			continue
 		}
-		r := &backing[i]
+		wr := &backing[i]
 		for p := start; p < end; {
 			rn, rt, rtl := tag(buf[p:end])
 			if rtl < 0 {
@@ -240,16 +285,16 @@ func decodeRequest(buf []byte, model, witness *string, readings *[]*pb.WitnessRe
 					return errFallback
 				}
 				if rn == fieldUnit {
-					r.Unit = val
+					wr.Unit = val
 				} else {
-					r.Reading = val
+					wr.Reading = val
 				}
 			}
 			p += fe
 		}
-		ptrs[i] = r
+		ptrs[i] = wr
 		i++
 	}
-	*readings = ptrs
+	r.Readings = ptrs
 	return nil
 }

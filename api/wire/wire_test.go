@@ -27,13 +27,17 @@ func sample(n int) *pb.PlaceRequest {
 // The encoder writes exactly what protobuf-go writes (deterministic marshal), which the
 // standard decoder reads back as the same message.
 func TestAppendRequestMatchesProtobuf(t *testing.T) {
-	for _, m := range []*pb.PlaceRequest{{}, {Witness: "x"}, sample(1), sample(400), {Readings: []*pb.WitnessReading{{}}}} {
+	asked := sample(3)
+	asked.Nearest, asked.BySection = 5, true
+	for _, m := range []*pb.PlaceRequest{{}, {Witness: "x"}, sample(1), sample(400), {Readings: []*pb.WitnessReading{{}}},
+		asked, {Nearest: -2}, {Nearest: 1 << 30}, {BySection: true}} {
 		want, err := proto.MarshalOptions{Deterministic: true}.Marshal(m)
 		if err != nil {
 			t.Fatal(err)
 		}
-		got := AppendRequest(nil, m.GetModel(), m.GetWitness(), m.GetReadings())
-		if n := RequestSize(m.GetModel(), m.GetWitness(), m.GetReadings()); n != len(want) {
+		r := &Request{Model: m.GetModel(), Witness: m.GetWitness(), Readings: m.GetReadings(), Nearest: m.GetNearest(), BySection: m.GetBySection()}
+		got := AppendRequest(nil, r)
+		if n := RequestSize(r); n != len(want) {
 			t.Errorf("RequestSize = %d; the encoding has %d bytes", n, len(want))
 		}
 		if !bytes.Equal(got, want) {
@@ -69,7 +73,8 @@ func decodeBoth(t *testing.T, b []byte) {
 	}
 	var stream pb.PlaceStreamRequest
 	if err := Codec().Unmarshal(mem.BufferSlice{mem.SliceBuffer(append([]byte(nil), b...))}, &stream); err != nil ||
-		stream.Model != fast.Model || stream.Witness != fast.Witness || len(stream.Readings) != len(fast.Readings) {
+		stream.Model != fast.Model || stream.Witness != fast.Witness || len(stream.Readings) != len(fast.Readings) ||
+		stream.Nearest != fast.Nearest || stream.BySection != fast.BySection {
 		t.Fatalf("stream request decodes differently: %v %v", &stream, err)
 	}
 }
@@ -92,9 +97,26 @@ func TestDecodeMatchesProtobuf(t *testing.T) {
 	badUTF8 = protowire.AppendBytes(badUTF8, []byte{0xff, 0xfe})
 	wrongType := protowire.AppendTag(nil, fieldModel, protowire.VarintType)
 	wrongType = protowire.AppendVarint(wrongType, 3)
+	asked := sample(4)
+	asked.Nearest, asked.BySection = 7, true
+	withOptions, _ := proto.Marshal(asked)
+	// Negative nearest (10-byte varint), a bool written as 2, the last value winning.
+	options := protowire.AppendTag(nil, fieldNearest, protowire.VarintType)
+	minusThree := int64(-3)
+	options = protowire.AppendVarint(options, uint64(minusThree))
+	options = protowire.AppendTag(options, fieldBySection, protowire.VarintType)
+	options = protowire.AppendVarint(options, 2)
+	options = protowire.AppendTag(options, fieldNearest, protowire.VarintType)
+	options = protowire.AppendVarint(options, 9)
+	optionWrongType := protowire.AppendTag(nil, fieldBySection, protowire.BytesType)
+	optionWrongType = protowire.AppendString(optionWrongType, "yes")
+	overlong := protowire.AppendTag(nil, fieldNearest, protowire.VarintType)
+	overlong = append(overlong, 0xff, 0xff, 0xff, 0xff, 0xff, 0xff, 0xff, 0xff, 0xff, 0xff, 0x01)
 	for name, b := range map[string][]byte{
 		"empty": nil, "sample": good, "unknown fields and repeats": odd, "invalid UTF-8": badUTF8,
 		"wrong wire type": wrongType, "truncated": good[:len(good)-3], "garbage": []byte{0x1a, 0xff, 0xff, 0xff},
+		"nearest and by_section": withOptions, "odd option values": options, "option of the wrong wire type": optionWrongType,
+		"overlong varint": overlong,
 	} {
 		t.Run(name, func(t *testing.T) { decodeBoth(t, b) })
 	}
@@ -104,6 +126,8 @@ func FuzzDecodeMatchesProtobuf(f *testing.F) {
 	good, _ := proto.Marshal(sample(5))
 	f.Add(good)
 	f.Add([]byte{0x1a, 0x02, 0x0a, 0x00})
+	f.Add([]byte{0x20, 0x05, 0x28, 0x01})
+	f.Add([]byte{0x20, 0xfd, 0xff, 0xff, 0xff, 0xff, 0xff, 0xff, 0xff, 0xff, 0x01, 0x28, 0x02})
 	f.Fuzz(func(t *testing.T, b []byte) { decodeBoth(t, b) })
 }
 
@@ -136,6 +160,6 @@ func BenchmarkEncode400(b *testing.B) {
 	buf := make([]byte, 0, 8192)
 	b.ReportAllocs()
 	for b.Loop() {
-		buf = AppendRequest(buf[:0], m.Model, m.Witness, m.Readings)
+		buf = AppendRequest(buf[:0], &Request{Model: m.Model, Witness: m.Witness, Readings: m.Readings})
 	}
 }

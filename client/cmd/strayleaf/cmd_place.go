@@ -157,10 +157,7 @@ func runPlace(ctx context.Context, args []string, stdout, stderr io.Writer) erro
 		if src.ref == "" {
 			return usageError("place", "--server needs --model REF")
 		}
-		if *bySection {
-			return usageError("place", "--by-section places locally: give --bundle or --store, not --server")
-		}
-		results, err = placeRemote(ctx, remote, src.ref, witnessesFromCollation(in.C))
+		results, err = placeRemote(ctx, remote, src.ref, witnessesFromCollation(in.C), *bySection)
 	} else {
 		results, err = placeLocal(&src, witnessesFromCollation(in.C), *bySection)
 	}
@@ -250,8 +247,9 @@ func placeLocal(src *modelSource, witnesses []witnessInput, bySection bool) ([]p
 	return results, nil
 }
 
-// placeRemote places every witness over one PlaceStream to a strayleafd.
-func placeRemote(ctx context.Context, remote *remoteFlags, ref string, witnesses []witnessInput) ([]placementJSON, error) {
+// placeRemote places every witness over one PlaceStream to a strayleafd, asking for what the
+// local path prints: the nearest training witnesses and, with bySection, the sections.
+func placeRemote(ctx context.Context, remote *remoteFlags, ref string, witnesses []witnessInput, bySection bool) ([]placementJSON, error) {
 	cl, err := remote.dial()
 	if err != nil {
 		return nil, err
@@ -265,20 +263,44 @@ func placeRemote(ctx context.Context, remote *remoteFlags, ref string, witnesses
 		}
 	}
 	results := make([]placementJSON, 0, len(ws))
-	err = cl.PlaceAll(ctx, ref, ws, func(r client.StreamResult) error {
+	opt := client.PlaceOptions{Nearest: model.NearestWitnesses, BySection: bySection}
+	err = cl.PlaceAllWith(ctx, ref, ws, opt, func(r client.StreamResult) error {
 		if r.Err != nil {
 			results = append(results, failedPlacement(r.Witness, ref, r.Err.Error()))
 			return nil
 		}
-		p := r.Placement
-		out := placementJSON{Witness: p.Witness, Model: p.Model, BestGroup: p.BestGroup, Confidence: p.Confidence,
-			CoveredUnits: p.CoveredUnits, UsedUnits: p.UsedUnits, RelativeResidual: p.RelativeResidual,
-			UnknownReadings: nonNil(p.UnknownReadings), UninformativeUnits: nonNil(p.UninformativeUnits)}
-		for _, g := range p.Groups {
-			out.Groups = append(out.Groups, shareOut{g.Group, g.Share})
-		}
-		results = append(results, out)
+		results = append(results, remotePlacementOut(r.Placement))
 		return nil
 	})
 	return results, err
+}
+
+// remotePlacementOut is placementOut for a placement answered by a strayleafd.
+func remotePlacementOut(p *client.Placement) placementJSON {
+	out := placementJSON{Witness: p.Witness, Model: p.Model, BestGroup: p.BestGroup, Confidence: p.Confidence,
+		CoveredUnits: p.CoveredUnits, UsedUnits: p.UsedUnits, RelativeResidual: p.RelativeResidual,
+		UnknownReadings: nonNil(p.UnknownReadings), UninformativeUnits: nonNil(p.UninformativeUnits),
+		InformativeCoverage: p.InformativeCoverage, Calibrated: p.Calibrated, Mixed: p.Mixed}
+	for _, g := range p.Groups {
+		out.Groups = append(out.Groups, shareOut{g.Group, g.Share})
+	}
+	if mx := p.Mixture; mx != nil {
+		out.Mixture = &mixtureJSON{mx.Primary, mx.Secondary, mx.SecondaryShare, mx.LikelihoodShare, mx.LikelihoodRatio}
+	}
+	for _, n := range p.Nearest {
+		out.Nearest = append(out.Nearest, nearestJSON{n.Witness, n.BestGroup, n.Agree, n.UnitsCompared, n.Agreement})
+	}
+	if p.BlockMixture != nil {
+		block := *p.BlockMixture
+		out.BlockMixture = &block
+		out.Sections = []sectionJSON{}
+		out.Changes = []changeJSON{}
+		for _, s := range p.Sections {
+			out.Sections = append(out.Sections, sectionJSON{s.Section, s.BestGroup, s.Confidence, s.CoveredUnits})
+		}
+		for _, c := range p.Changes {
+			out.Changes = append(out.Changes, changeJSON{c.AfterSection, c.AtSection, c.FromGroup, c.ToGroup})
+		}
+	}
+	return out
 }

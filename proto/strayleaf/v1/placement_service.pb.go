@@ -82,8 +82,14 @@ type PlaceRequest struct {
 	// model is a model reference: "name", "name@3" or "name@alias".
 	Model string `protobuf:"bytes,1,opt,name=model,proto3" json:"model,omitempty"`
 	// witness is the siglum of the witness or fragment to place.
-	Witness       string            `protobuf:"bytes,2,opt,name=witness,proto3" json:"witness,omitempty"`
-	Readings      []*WitnessReading `protobuf:"bytes,3,rep,name=readings,proto3" json:"readings,omitempty"`
+	Witness  string            `protobuf:"bytes,2,opt,name=witness,proto3" json:"witness,omitempty"`
+	Readings []*WitnessReading `protobuf:"bytes,3,rep,name=readings,proto3" json:"readings,omitempty"`
+	// nearest is how many nearest training witnesses by agreement the answer names (0: none; they
+	// cost a comparison with every training witness).
+	Nearest int32 `protobuf:"varint,4,opt,name=nearest,proto3" json:"nearest,omitempty"`
+	// by_section also places each section's readings separately and reads a change of exemplar
+	// (block mixture) from them; the model's units must carry sections.
+	BySection     bool `protobuf:"varint,5,opt,name=by_section,json=bySection,proto3" json:"by_section,omitempty"`
 	unknownFields protoimpl.UnknownFields
 	sizeCache     protoimpl.SizeCache
 }
@@ -137,6 +143,20 @@ func (x *PlaceRequest) GetReadings() []*WitnessReading {
 		return x.Readings
 	}
 	return nil
+}
+
+func (x *PlaceRequest) GetNearest() int32 {
+	if x != nil {
+		return x.Nearest
+	}
+	return 0
+}
+
+func (x *PlaceRequest) GetBySection() bool {
+	if x != nil {
+		return x.BySection
+	}
+	return false
 }
 
 type PlaceResponse struct {
@@ -208,8 +228,29 @@ type Placement struct {
 	// relative_residual is ||W_c h - v_c||^2 / ||v_c||^2 over the used units: how much of the
 	// witness's readings the groups leave unexplained.
 	RelativeResidual float64 `protobuf:"fixed64,10,opt,name=relative_residual,json=relativeResidual,proto3" json:"relative_residual,omitempty"`
-	unknownFields    protoimpl.UnknownFields
-	sizeCache        protoimpl.SizeCache
+	// informative_coverage is the share of the model's total informativeness that the used units
+	// carry.
+	InformativeCoverage float64 `protobuf:"fixed64,11,opt,name=informative_coverage,json=informativeCoverage,proto3" json:"informative_coverage,omitempty"`
+	// calibrated is true when confidence was read through the model's calibration (the
+	// probability that best_group is the witness's true group).
+	Calibrated bool `protobuf:"varint,12,opt,name=calibrated,proto3" json:"calibrated,omitempty"`
+	// mixed is true when the mixture test finds the second group's share substantial and
+	// supported (mixture.mixed).
+	Mixed bool `protobuf:"varint,13,opt,name=mixed,proto3" json:"mixed,omitempty"`
+	// mixture reads the two largest shares as a mixture; unset with one group or no placement.
+	Mixture *Mixture `protobuf:"bytes,14,opt,name=mixture,proto3" json:"mixture,omitempty"`
+	// nearest are the training witnesses that agree most with the witness, when asked for.
+	Nearest []*Neighbour `protobuf:"bytes,15,rep,name=nearest,proto3" json:"nearest,omitempty"`
+	// sections are the placements of each section's readings, in text order, when asked for
+	// (by_section); only sections the witness has readings in are listed.
+	Sections []*SectionPlacement `protobuf:"bytes,16,rep,name=sections,proto3" json:"sections,omitempty"`
+	// block_mixture is true when two sections are placed confidently in different groups (set
+	// only with by_section).
+	BlockMixture *bool `protobuf:"varint,17,opt,name=block_mixture,json=blockMixture,proto3,oneof" json:"block_mixture,omitempty"`
+	// block_changes name where each change of exemplar falls (by_section).
+	BlockChanges  []*BlockChange `protobuf:"bytes,18,rep,name=block_changes,json=blockChanges,proto3" json:"block_changes,omitempty"`
+	unknownFields protoimpl.UnknownFields
+	sizeCache     protoimpl.SizeCache
 }
 
 func (x *Placement) Reset() {
@@ -312,6 +353,362 @@ func (x *Placement) GetRelativeResidual() float64 {
 	return 0
 }
 
+func (x *Placement) GetInformativeCoverage() float64 {
+	if x != nil {
+		return x.InformativeCoverage
+	}
+	return 0
+}
+
+func (x *Placement) GetCalibrated() bool {
+	if x != nil {
+		return x.Calibrated
+	}
+	return false
+}
+
+func (x *Placement) GetMixed() bool {
+	if x != nil {
+		return x.Mixed
+	}
+	return false
+}
+
+func (x *Placement) GetMixture() *Mixture {
+	if x != nil {
+		return x.Mixture
+	}
+	return nil
+}
+
+func (x *Placement) GetNearest() []*Neighbour {
+	if x != nil {
+		return x.Nearest
+	}
+	return nil
+}
+
+func (x *Placement) GetSections() []*SectionPlacement {
+	if x != nil {
+		return x.Sections
+	}
+	return nil
+}
+
+func (x *Placement) GetBlockMixture() bool {
+	if x != nil && x.BlockMixture != nil {
+		return *x.BlockMixture
+	}
+	return false
+}
+
+func (x *Placement) GetBlockChanges() []*BlockChange {
+	if x != nil {
+		return x.BlockChanges
+	}
+	return nil
+}
+
+// Mixture is the mixture reading of a placement's two largest shares.
+type Mixture struct {
+	state     protoimpl.MessageState `protogen:"open.v1"`
+	Primary   string                 `protobuf:"bytes,1,opt,name=primary,proto3" json:"primary,omitempty"`
+	Secondary string                 `protobuf:"bytes,2,opt,name=secondary,proto3" json:"secondary,omitempty"`
+	// secondary_share is the secondary group's share of the placement.
+	SecondaryShare float64 `protobuf:"fixed64,3,opt,name=secondary_share,json=secondaryShare,proto3" json:"secondary_share,omitempty"`
+	// likelihood_share is the maximum-likelihood share of the secondary group under the groups'
+	// reading probabilities; likelihood_ratio the statistic of the test that decides mixed.
+	LikelihoodShare float64 `protobuf:"fixed64,4,opt,name=likelihood_share,json=likelihoodShare,proto3" json:"likelihood_share,omitempty"`
+	LikelihoodRatio float64 `protobuf:"fixed64,5,opt,name=likelihood_ratio,json=likelihoodRatio,proto3" json:"likelihood_ratio,omitempty"`
+	unknownFields   protoimpl.UnknownFields
+	sizeCache       protoimpl.SizeCache
+}
+
+func (x *Mixture) Reset() {
+	*x = Mixture{}
+	mi := &file_strayleaf_v1_placement_service_proto_msgTypes[4]
+	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+	ms.StoreMessageInfo(mi)
+}
+
+func (x *Mixture) String() string {
+	return protoimpl.X.MessageStringOf(x)
+}
+
+func (*Mixture) ProtoMessage() {}
+
+func (x *Mixture) ProtoReflect() protoreflect.Message {
+	mi := &file_strayleaf_v1_placement_service_proto_msgTypes[4]
+	if x != nil {
+		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+		if ms.LoadMessageInfo() == nil {
+			ms.StoreMessageInfo(mi)
+		}
+		return ms
+	}
+	return mi.MessageOf(x)
+}
+
+// Deprecated: Use Mixture.ProtoReflect.Descriptor instead.
+func (*Mixture) Descriptor() ([]byte, []int) {
+	return file_strayleaf_v1_placement_service_proto_rawDescGZIP(), []int{4}
+}
+
+func (x *Mixture) GetPrimary() string {
+	if x != nil {
+		return x.Primary
+	}
+	return ""
+}
+
+func (x *Mixture) GetSecondary() string {
+	if x != nil {
+		return x.Secondary
+	}
+	return ""
+}
+
+func (x *Mixture) GetSecondaryShare() float64 {
+	if x != nil {
+		return x.SecondaryShare
+	}
+	return 0
+}
+
+func (x *Mixture) GetLikelihoodShare() float64 {
+	if x != nil {
+		return x.LikelihoodShare
+	}
+	return 0
+}
+
+func (x *Mixture) GetLikelihoodRatio() float64 {
+	if x != nil {
+		return x.LikelihoodRatio
+	}
+	return 0
+}
+
+// Neighbour is a training witness compared with the placed one by agreement.
+type Neighbour struct {
+	state   protoimpl.MessageState `protogen:"open.v1"`
+	Witness string                 `protobuf:"bytes,1,opt,name=witness,proto3" json:"witness,omitempty"`
+	// best_group is the training witness's own group.
+	BestGroup string `protobuf:"bytes,2,opt,name=best_group,json=bestGroup,proto3" json:"best_group,omitempty"`
+	// agree counts the units where both have the same reading, of units_compared.
+	Agree         int32 `protobuf:"varint,3,opt,name=agree,proto3" json:"agree,omitempty"`
+	UnitsCompared int32 `protobuf:"varint,4,opt,name=units_compared,json=unitsCompared,proto3" json:"units_compared,omitempty"`
+	// agreement is agree / units_compared.
+	Agreement     float64 `protobuf:"fixed64,5,opt,name=agreement,proto3" json:"agreement,omitempty"`
+	unknownFields protoimpl.UnknownFields
+	sizeCache     protoimpl.SizeCache
+}
+
+func (x *Neighbour) Reset() {
+	*x = Neighbour{}
+	mi := &file_strayleaf_v1_placement_service_proto_msgTypes[5]
+	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+	ms.StoreMessageInfo(mi)
+}
+
+func (x *Neighbour) String() string {
+	return protoimpl.X.MessageStringOf(x)
+}
+
+func (*Neighbour) ProtoMessage() {}
+
+func (x *Neighbour) ProtoReflect() protoreflect.Message {
+	mi := &file_strayleaf_v1_placement_service_proto_msgTypes[5]
+	if x != nil {
+		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+		if ms.LoadMessageInfo() == nil {
+			ms.StoreMessageInfo(mi)
+		}
+		return ms
+	}
+	return mi.MessageOf(x)
+}
+
+// Deprecated: Use Neighbour.ProtoReflect.Descriptor instead.
+func (*Neighbour) Descriptor() ([]byte, []int) {
+	return file_strayleaf_v1_placement_service_proto_rawDescGZIP(), []int{5}
+}
+
+func (x *Neighbour) GetWitness() string {
+	if x != nil {
+		return x.Witness
+	}
+	return ""
+}
+
+func (x *Neighbour) GetBestGroup() string {
+	if x != nil {
+		return x.BestGroup
+	}
+	return ""
+}
+
+func (x *Neighbour) GetAgree() int32 {
+	if x != nil {
+		return x.Agree
+	}
+	return 0
+}
+
+func (x *Neighbour) GetUnitsCompared() int32 {
+	if x != nil {
+		return x.UnitsCompared
+	}
+	return 0
+}
+
+func (x *Neighbour) GetAgreement() float64 {
+	if x != nil {
+		return x.Agreement
+	}
+	return 0
+}
+
+// SectionPlacement is the placement of the readings of one section.
+type SectionPlacement struct {
+	state   protoimpl.MessageState `protogen:"open.v1"`
+	Section string                 `protobuf:"bytes,1,opt,name=section,proto3" json:"section,omitempty"`
+	// best_group is empty and confidence 0 when the section has no reading the model can place by.
+	BestGroup     string  `protobuf:"bytes,2,opt,name=best_group,json=bestGroup,proto3" json:"best_group,omitempty"`
+	Confidence    float64 `protobuf:"fixed64,3,opt,name=confidence,proto3" json:"confidence,omitempty"`
+	CoveredUnits  int32   `protobuf:"varint,4,opt,name=covered_units,json=coveredUnits,proto3" json:"covered_units,omitempty"`
+	unknownFields protoimpl.UnknownFields
+	sizeCache     protoimpl.SizeCache
+}
+
+func (x *SectionPlacement) Reset() {
+	*x = SectionPlacement{}
+	mi := &file_strayleaf_v1_placement_service_proto_msgTypes[6]
+	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+	ms.StoreMessageInfo(mi)
+}
+
+func (x *SectionPlacement) String() string {
+	return protoimpl.X.MessageStringOf(x)
+}
+
+func (*SectionPlacement) ProtoMessage() {}
+
+func (x *SectionPlacement) ProtoReflect() protoreflect.Message {
+	mi := &file_strayleaf_v1_placement_service_proto_msgTypes[6]
+	if x != nil {
+		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+		if ms.LoadMessageInfo() == nil {
+			ms.StoreMessageInfo(mi)
+		}
+		return ms
+	}
+	return mi.MessageOf(x)
+}
+
+// Deprecated: Use SectionPlacement.ProtoReflect.Descriptor instead.
+func (*SectionPlacement) Descriptor() ([]byte, []int) {
+	return file_strayleaf_v1_placement_service_proto_rawDescGZIP(), []int{6}
+}
+
+func (x *SectionPlacement) GetSection() string {
+	if x != nil {
+		return x.Section
+	}
+	return ""
+}
+
+func (x *SectionPlacement) GetBestGroup() string {
+	if x != nil {
+		return x.BestGroup
+	}
+	return ""
+}
+
+func (x *SectionPlacement) GetConfidence() float64 {
+	if x != nil {
+		return x.Confidence
+	}
+	return 0
+}
+
+func (x *SectionPlacement) GetCoveredUnits() int32 {
+	if x != nil {
+		return x.CoveredUnits
+	}
+	return 0
+}
+
+// BlockChange is one change of exemplar: after_section is the last section placed with
+// from_group, at_section the first placed with to_group.
+type BlockChange struct {
+	state         protoimpl.MessageState `protogen:"open.v1"`
+	AfterSection  string                 `protobuf:"bytes,1,opt,name=after_section,json=afterSection,proto3" json:"after_section,omitempty"`
+	AtSection     string                 `protobuf:"bytes,2,opt,name=at_section,json=atSection,proto3" json:"at_section,omitempty"`
+	FromGroup     string                 `protobuf:"bytes,3,opt,name=from_group,json=fromGroup,proto3" json:"from_group,omitempty"`
+	ToGroup       string                 `protobuf:"bytes,4,opt,name=to_group,json=toGroup,proto3" json:"to_group,omitempty"`
+	unknownFields protoimpl.UnknownFields
+	sizeCache     protoimpl.SizeCache
+}
+
+func (x *BlockChange) Reset() {
+	*x = BlockChange{}
+	mi := &file_strayleaf_v1_placement_service_proto_msgTypes[7]
+	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+	ms.StoreMessageInfo(mi)
+}
+
+func (x *BlockChange) String() string {
+	return protoimpl.X.MessageStringOf(x)
+}
+
+func (*BlockChange) ProtoMessage() {}
+
+func (x *BlockChange) ProtoReflect() protoreflect.Message {
+	mi := &file_strayleaf_v1_placement_service_proto_msgTypes[7]
+	if x != nil {
+		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+		if ms.LoadMessageInfo() == nil {
+			ms.StoreMessageInfo(mi)
+		}
+		return ms
+	}
+	return mi.MessageOf(x)
+}
+
+// Deprecated: Use BlockChange.ProtoReflect.Descriptor instead.
+func (*BlockChange) Descriptor() ([]byte, []int) {
+	return file_strayleaf_v1_placement_service_proto_rawDescGZIP(), []int{7}
+}
+
+func (x *BlockChange) GetAfterSection() string {
+	if x != nil {
+		return x.AfterSection
+	}
+	return ""
+}
+
+func (x *BlockChange) GetAtSection() string {
+	if x != nil {
+		return x.AtSection
+	}
+	return ""
+}
+
+func (x *BlockChange) GetFromGroup() string {
+	if x != nil {
+		return x.FromGroup
+	}
+	return ""
+}
+
+func (x *BlockChange) GetToGroup() string {
+	if x != nil {
+		return x.ToGroup
+	}
+	return ""
+}
+
 // GroupShare is one group's share of a placement.
 type GroupShare struct {
 	state         protoimpl.MessageState `protogen:"open.v1"`
@@ -323,7 +720,7 @@ type GroupShare struct {
 
 func (x *GroupShare) Reset() {
 	*x = GroupShare{}
-	mi := &file_strayleaf_v1_placement_service_proto_msgTypes[4]
+	mi := &file_strayleaf_v1_placement_service_proto_msgTypes[8]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -335,7 +732,7 @@ func (x *GroupShare) String() string {
 func (*GroupShare) ProtoMessage() {}
 
 func (x *GroupShare) ProtoReflect() protoreflect.Message {
-	mi := &file_strayleaf_v1_placement_service_proto_msgTypes[4]
+	mi := &file_strayleaf_v1_placement_service_proto_msgTypes[8]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -348,7 +745,7 @@ func (x *GroupShare) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use GroupShare.ProtoReflect.Descriptor instead.
 func (*GroupShare) Descriptor() ([]byte, []int) {
-	return file_strayleaf_v1_placement_service_proto_rawDescGZIP(), []int{4}
+	return file_strayleaf_v1_placement_service_proto_rawDescGZIP(), []int{8}
 }
 
 func (x *GroupShare) GetGroup() string {
@@ -369,16 +766,19 @@ type PlaceStreamRequest struct {
 	state protoimpl.MessageState `protogen:"open.v1"`
 	// model is a model reference; it may be left empty after the first message to mean the
 	// reference of the previous message.
-	Model         string            `protobuf:"bytes,1,opt,name=model,proto3" json:"model,omitempty"`
-	Witness       string            `protobuf:"bytes,2,opt,name=witness,proto3" json:"witness,omitempty"`
-	Readings      []*WitnessReading `protobuf:"bytes,3,rep,name=readings,proto3" json:"readings,omitempty"`
+	Model    string            `protobuf:"bytes,1,opt,name=model,proto3" json:"model,omitempty"`
+	Witness  string            `protobuf:"bytes,2,opt,name=witness,proto3" json:"witness,omitempty"`
+	Readings []*WitnessReading `protobuf:"bytes,3,rep,name=readings,proto3" json:"readings,omitempty"`
+	// nearest and by_section as in PlaceRequest, for this witness.
+	Nearest       int32 `protobuf:"varint,4,opt,name=nearest,proto3" json:"nearest,omitempty"`
+	BySection     bool  `protobuf:"varint,5,opt,name=by_section,json=bySection,proto3" json:"by_section,omitempty"`
 	unknownFields protoimpl.UnknownFields
 	sizeCache     protoimpl.SizeCache
 }
 
 func (x *PlaceStreamRequest) Reset() {
 	*x = PlaceStreamRequest{}
-	mi := &file_strayleaf_v1_placement_service_proto_msgTypes[5]
+	mi := &file_strayleaf_v1_placement_service_proto_msgTypes[9]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -390,7 +790,7 @@ func (x *PlaceStreamRequest) String() string {
 func (*PlaceStreamRequest) ProtoMessage() {}
 
 func (x *PlaceStreamRequest) ProtoReflect() protoreflect.Message {
-	mi := &file_strayleaf_v1_placement_service_proto_msgTypes[5]
+	mi := &file_strayleaf_v1_placement_service_proto_msgTypes[9]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -403,7 +803,7 @@ func (x *PlaceStreamRequest) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use PlaceStreamRequest.ProtoReflect.Descriptor instead.
 func (*PlaceStreamRequest) Descriptor() ([]byte, []int) {
-	return file_strayleaf_v1_placement_service_proto_rawDescGZIP(), []int{5}
+	return file_strayleaf_v1_placement_service_proto_rawDescGZIP(), []int{9}
 }
 
 func (x *PlaceStreamRequest) GetModel() string {
@@ -427,6 +827,20 @@ func (x *PlaceStreamRequest) GetReadings() []*WitnessReading {
 	return nil
 }
 
+func (x *PlaceStreamRequest) GetNearest() int32 {
+	if x != nil {
+		return x.Nearest
+	}
+	return 0
+}
+
+func (x *PlaceStreamRequest) GetBySection() bool {
+	if x != nil {
+		return x.BySection
+	}
+	return false
+}
+
 type PlaceStreamResponse struct {
 	state protoimpl.MessageState `protogen:"open.v1"`
 	// index is the 0-based position of the witness in the request stream.
@@ -444,7 +858,7 @@ type PlaceStreamResponse struct {
 
 func (x *PlaceStreamResponse) Reset() {
 	*x = PlaceStreamResponse{}
-	mi := &file_strayleaf_v1_placement_service_proto_msgTypes[6]
+	mi := &file_strayleaf_v1_placement_service_proto_msgTypes[10]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -456,7 +870,7 @@ func (x *PlaceStreamResponse) String() string {
 func (*PlaceStreamResponse) ProtoMessage() {}
 
 func (x *PlaceStreamResponse) ProtoReflect() protoreflect.Message {
-	mi := &file_strayleaf_v1_placement_service_proto_msgTypes[6]
+	mi := &file_strayleaf_v1_placement_service_proto_msgTypes[10]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -469,7 +883,7 @@ func (x *PlaceStreamResponse) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use PlaceStreamResponse.ProtoReflect.Descriptor instead.
 func (*PlaceStreamResponse) Descriptor() ([]byte, []int) {
-	return file_strayleaf_v1_placement_service_proto_rawDescGZIP(), []int{6}
+	return file_strayleaf_v1_placement_service_proto_rawDescGZIP(), []int{10}
 }
 
 func (x *PlaceStreamResponse) GetIndex() int32 {
@@ -542,7 +956,7 @@ type WitnessError struct {
 
 func (x *WitnessError) Reset() {
 	*x = WitnessError{}
-	mi := &file_strayleaf_v1_placement_service_proto_msgTypes[7]
+	mi := &file_strayleaf_v1_placement_service_proto_msgTypes[11]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -554,7 +968,7 @@ func (x *WitnessError) String() string {
 func (*WitnessError) ProtoMessage() {}
 
 func (x *WitnessError) ProtoReflect() protoreflect.Message {
-	mi := &file_strayleaf_v1_placement_service_proto_msgTypes[7]
+	mi := &file_strayleaf_v1_placement_service_proto_msgTypes[11]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -567,7 +981,7 @@ func (x *WitnessError) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use WitnessError.ProtoReflect.Descriptor instead.
 func (*WitnessError) Descriptor() ([]byte, []int) {
-	return file_strayleaf_v1_placement_service_proto_rawDescGZIP(), []int{7}
+	return file_strayleaf_v1_placement_service_proto_rawDescGZIP(), []int{11}
 }
 
 func (x *WitnessError) GetCode() int32 {
@@ -602,7 +1016,7 @@ type FieldViolation struct {
 
 func (x *FieldViolation) Reset() {
 	*x = FieldViolation{}
-	mi := &file_strayleaf_v1_placement_service_proto_msgTypes[8]
+	mi := &file_strayleaf_v1_placement_service_proto_msgTypes[12]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -614,7 +1028,7 @@ func (x *FieldViolation) String() string {
 func (*FieldViolation) ProtoMessage() {}
 
 func (x *FieldViolation) ProtoReflect() protoreflect.Message {
-	mi := &file_strayleaf_v1_placement_service_proto_msgTypes[8]
+	mi := &file_strayleaf_v1_placement_service_proto_msgTypes[12]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -627,7 +1041,7 @@ func (x *FieldViolation) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use FieldViolation.ProtoReflect.Descriptor instead.
 func (*FieldViolation) Descriptor() ([]byte, []int) {
-	return file_strayleaf_v1_placement_service_proto_rawDescGZIP(), []int{8}
+	return file_strayleaf_v1_placement_service_proto_rawDescGZIP(), []int{12}
 }
 
 func (x *FieldViolation) GetField() string {
@@ -661,7 +1075,7 @@ type SuggestRequest struct {
 
 func (x *SuggestRequest) Reset() {
 	*x = SuggestRequest{}
-	mi := &file_strayleaf_v1_placement_service_proto_msgTypes[9]
+	mi := &file_strayleaf_v1_placement_service_proto_msgTypes[13]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -673,7 +1087,7 @@ func (x *SuggestRequest) String() string {
 func (*SuggestRequest) ProtoMessage() {}
 
 func (x *SuggestRequest) ProtoReflect() protoreflect.Message {
-	mi := &file_strayleaf_v1_placement_service_proto_msgTypes[9]
+	mi := &file_strayleaf_v1_placement_service_proto_msgTypes[13]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -686,7 +1100,7 @@ func (x *SuggestRequest) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use SuggestRequest.ProtoReflect.Descriptor instead.
 func (*SuggestRequest) Descriptor() ([]byte, []int) {
-	return file_strayleaf_v1_placement_service_proto_rawDescGZIP(), []int{9}
+	return file_strayleaf_v1_placement_service_proto_rawDescGZIP(), []int{13}
 }
 
 func (x *SuggestRequest) GetModel() string {
@@ -745,7 +1159,7 @@ type SuggestResponse struct {
 
 func (x *SuggestResponse) Reset() {
 	*x = SuggestResponse{}
-	mi := &file_strayleaf_v1_placement_service_proto_msgTypes[10]
+	mi := &file_strayleaf_v1_placement_service_proto_msgTypes[14]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -757,7 +1171,7 @@ func (x *SuggestResponse) String() string {
 func (*SuggestResponse) ProtoMessage() {}
 
 func (x *SuggestResponse) ProtoReflect() protoreflect.Message {
-	mi := &file_strayleaf_v1_placement_service_proto_msgTypes[10]
+	mi := &file_strayleaf_v1_placement_service_proto_msgTypes[14]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -770,7 +1184,7 @@ func (x *SuggestResponse) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use SuggestResponse.ProtoReflect.Descriptor instead.
 func (*SuggestResponse) Descriptor() ([]byte, []int) {
-	return file_strayleaf_v1_placement_service_proto_rawDescGZIP(), []int{10}
+	return file_strayleaf_v1_placement_service_proto_rawDescGZIP(), []int{14}
 }
 
 func (x *SuggestResponse) GetModel() string {
@@ -831,7 +1245,7 @@ type UnitSuggestion struct {
 
 func (x *UnitSuggestion) Reset() {
 	*x = UnitSuggestion{}
-	mi := &file_strayleaf_v1_placement_service_proto_msgTypes[11]
+	mi := &file_strayleaf_v1_placement_service_proto_msgTypes[15]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -843,7 +1257,7 @@ func (x *UnitSuggestion) String() string {
 func (*UnitSuggestion) ProtoMessage() {}
 
 func (x *UnitSuggestion) ProtoReflect() protoreflect.Message {
-	mi := &file_strayleaf_v1_placement_service_proto_msgTypes[11]
+	mi := &file_strayleaf_v1_placement_service_proto_msgTypes[15]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -856,7 +1270,7 @@ func (x *UnitSuggestion) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use UnitSuggestion.ProtoReflect.Descriptor instead.
 func (*UnitSuggestion) Descriptor() ([]byte, []int) {
-	return file_strayleaf_v1_placement_service_proto_rawDescGZIP(), []int{11}
+	return file_strayleaf_v1_placement_service_proto_rawDescGZIP(), []int{15}
 }
 
 func (x *UnitSuggestion) GetUnit() string {
@@ -900,7 +1314,7 @@ type ReadingHint struct {
 
 func (x *ReadingHint) Reset() {
 	*x = ReadingHint{}
-	mi := &file_strayleaf_v1_placement_service_proto_msgTypes[12]
+	mi := &file_strayleaf_v1_placement_service_proto_msgTypes[16]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -912,7 +1326,7 @@ func (x *ReadingHint) String() string {
 func (*ReadingHint) ProtoMessage() {}
 
 func (x *ReadingHint) ProtoReflect() protoreflect.Message {
-	mi := &file_strayleaf_v1_placement_service_proto_msgTypes[12]
+	mi := &file_strayleaf_v1_placement_service_proto_msgTypes[16]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -925,7 +1339,7 @@ func (x *ReadingHint) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use ReadingHint.ProtoReflect.Descriptor instead.
 func (*ReadingHint) Descriptor() ([]byte, []int) {
-	return file_strayleaf_v1_placement_service_proto_rawDescGZIP(), []int{12}
+	return file_strayleaf_v1_placement_service_proto_rawDescGZIP(), []int{16}
 }
 
 func (x *ReadingHint) GetReading() string {
@@ -956,13 +1370,16 @@ const file_strayleaf_v1_placement_service_proto_rawDesc = "" +
 	"$strayleaf/v1/placement_service.proto\x12\fstrayleaf.v1\">\n" +
 	"\x0eWitnessReading\x12\x12\n" +
 	"\x04unit\x18\x01 \x01(\tR\x04unit\x12\x18\n" +
-	"\areading\x18\x02 \x01(\tR\areading\"x\n" +
+	"\areading\x18\x02 \x01(\tR\areading\"\xb1\x01\n" +
 	"\fPlaceRequest\x12\x14\n" +
 	"\x05model\x18\x01 \x01(\tR\x05model\x12\x18\n" +
 	"\awitness\x18\x02 \x01(\tR\awitness\x128\n" +
-	"\breadings\x18\x03 \x03(\v2\x1c.strayleaf.v1.WitnessReadingR\breadings\"F\n" +
+	"\breadings\x18\x03 \x03(\v2\x1c.strayleaf.v1.WitnessReadingR\breadings\x12\x18\n" +
+	"\anearest\x18\x04 \x01(\x05R\anearest\x12\x1d\n" +
+	"\n" +
+	"by_section\x18\x05 \x01(\bR\tbySection\"F\n" +
 	"\rPlaceResponse\x125\n" +
-	"\tplacement\x18\x01 \x01(\v2\x17.strayleaf.v1.PlacementR\tplacement\"\xf9\x02\n" +
+	"\tplacement\x18\x01 \x01(\v2\x17.strayleaf.v1.PlacementR\tplacement\"\xfe\x05\n" +
 	"\tPlacement\x12\x14\n" +
 	"\x05model\x18\x01 \x01(\tR\x05model\x12\x18\n" +
 	"\awitness\x18\x02 \x01(\tR\awitness\x12\x1d\n" +
@@ -978,15 +1395,57 @@ const file_strayleaf_v1_placement_service_proto_rawDesc = "" +
 	"used_units\x18\b \x01(\x05R\tusedUnits\x12/\n" +
 	"\x13uninformative_units\x18\t \x03(\tR\x12uninformativeUnits\x12+\n" +
 	"\x11relative_residual\x18\n" +
-	" \x01(\x01R\x10relativeResidual\"8\n" +
+	" \x01(\x01R\x10relativeResidual\x121\n" +
+	"\x14informative_coverage\x18\v \x01(\x01R\x13informativeCoverage\x12\x1e\n" +
+	"\n" +
+	"calibrated\x18\f \x01(\bR\n" +
+	"calibrated\x12\x14\n" +
+	"\x05mixed\x18\r \x01(\bR\x05mixed\x12/\n" +
+	"\amixture\x18\x0e \x01(\v2\x15.strayleaf.v1.MixtureR\amixture\x121\n" +
+	"\anearest\x18\x0f \x03(\v2\x17.strayleaf.v1.NeighbourR\anearest\x12:\n" +
+	"\bsections\x18\x10 \x03(\v2\x1e.strayleaf.v1.SectionPlacementR\bsections\x12(\n" +
+	"\rblock_mixture\x18\x11 \x01(\bH\x00R\fblockMixture\x88\x01\x01\x12>\n" +
+	"\rblock_changes\x18\x12 \x03(\v2\x19.strayleaf.v1.BlockChangeR\fblockChangesB\x10\n" +
+	"\x0e_block_mixture\"\xc0\x01\n" +
+	"\aMixture\x12\x18\n" +
+	"\aprimary\x18\x01 \x01(\tR\aprimary\x12\x1c\n" +
+	"\tsecondary\x18\x02 \x01(\tR\tsecondary\x12'\n" +
+	"\x0fsecondary_share\x18\x03 \x01(\x01R\x0esecondaryShare\x12)\n" +
+	"\x10likelihood_share\x18\x04 \x01(\x01R\x0flikelihoodShare\x12)\n" +
+	"\x10likelihood_ratio\x18\x05 \x01(\x01R\x0flikelihoodRatio\"\x9f\x01\n" +
+	"\tNeighbour\x12\x18\n" +
+	"\awitness\x18\x01 \x01(\tR\awitness\x12\x1d\n" +
+	"\n" +
+	"best_group\x18\x02 \x01(\tR\tbestGroup\x12\x14\n" +
+	"\x05agree\x18\x03 \x01(\x05R\x05agree\x12%\n" +
+	"\x0eunits_compared\x18\x04 \x01(\x05R\runitsCompared\x12\x1c\n" +
+	"\tagreement\x18\x05 \x01(\x01R\tagreement\"\x90\x01\n" +
+	"\x10SectionPlacement\x12\x18\n" +
+	"\asection\x18\x01 \x01(\tR\asection\x12\x1d\n" +
+	"\n" +
+	"best_group\x18\x02 \x01(\tR\tbestGroup\x12\x1e\n" +
+	"\n" +
+	"confidence\x18\x03 \x01(\x01R\n" +
+	"confidence\x12#\n" +
+	"\rcovered_units\x18\x04 \x01(\x05R\fcoveredUnits\"\x8b\x01\n" +
+	"\vBlockChange\x12#\n" +
+	"\rafter_section\x18\x01 \x01(\tR\fafterSection\x12\x1d\n" +
+	"\n" +
+	"at_section\x18\x02 \x01(\tR\tatSection\x12\x1d\n" +
+	"\n" +
+	"from_group\x18\x03 \x01(\tR\tfromGroup\x12\x19\n" +
+	"\bto_group\x18\x04 \x01(\tR\atoGroup\"8\n" +
 	"\n" +
 	"GroupShare\x12\x14\n" +
 	"\x05group\x18\x01 \x01(\tR\x05group\x12\x14\n" +
-	"\x05share\x18\x02 \x01(\x01R\x05share\"~\n" +
+	"\x05share\x18\x02 \x01(\x01R\x05share\"\xb7\x01\n" +
 	"\x12PlaceStreamRequest\x12\x14\n" +
 	"\x05model\x18\x01 \x01(\tR\x05model\x12\x18\n" +
 	"\awitness\x18\x02 \x01(\tR\awitness\x128\n" +
-	"\breadings\x18\x03 \x03(\v2\x1c.strayleaf.v1.WitnessReadingR\breadings\"\xbc\x01\n" +
+	"\breadings\x18\x03 \x03(\v2\x1c.strayleaf.v1.WitnessReadingR\breadings\x12\x18\n" +
+	"\anearest\x18\x04 \x01(\x05R\anearest\x12\x1d\n" +
+	"\n" +
+	"by_section\x18\x05 \x01(\bR\tbySection\"\xbc\x01\n" +
 	"\x13PlaceStreamResponse\x12\x14\n" +
 	"\x05index\x18\x01 \x01(\x05R\x05index\x12\x18\n" +
 	"\awitness\x18\x02 \x01(\tR\awitness\x127\n" +
@@ -1045,47 +1504,55 @@ func file_strayleaf_v1_placement_service_proto_rawDescGZIP() []byte {
 	return file_strayleaf_v1_placement_service_proto_rawDescData
 }
 
-var file_strayleaf_v1_placement_service_proto_msgTypes = make([]protoimpl.MessageInfo, 14)
+var file_strayleaf_v1_placement_service_proto_msgTypes = make([]protoimpl.MessageInfo, 18)
 var file_strayleaf_v1_placement_service_proto_goTypes = []any{
 	(*WitnessReading)(nil),      // 0: strayleaf.v1.WitnessReading
 	(*PlaceRequest)(nil),        // 1: strayleaf.v1.PlaceRequest
 	(*PlaceResponse)(nil),       // 2: strayleaf.v1.PlaceResponse
 	(*Placement)(nil),           // 3: strayleaf.v1.Placement
-	(*GroupShare)(nil),          // 4: strayleaf.v1.GroupShare
-	(*PlaceStreamRequest)(nil),  // 5: strayleaf.v1.PlaceStreamRequest
-	(*PlaceStreamResponse)(nil), // 6: strayleaf.v1.PlaceStreamResponse
-	(*WitnessError)(nil),        // 7: strayleaf.v1.WitnessError
-	(*FieldViolation)(nil),      // 8: strayleaf.v1.FieldViolation
-	(*SuggestRequest)(nil),      // 9: strayleaf.v1.SuggestRequest
-	(*SuggestResponse)(nil),     // 10: strayleaf.v1.SuggestResponse
-	(*UnitSuggestion)(nil),      // 11: strayleaf.v1.UnitSuggestion
-	(*ReadingHint)(nil),         // 12: strayleaf.v1.ReadingHint
-	nil,                         // 13: strayleaf.v1.UnitSuggestion.HintsEntry
+	(*Mixture)(nil),             // 4: strayleaf.v1.Mixture
+	(*Neighbour)(nil),           // 5: strayleaf.v1.Neighbour
+	(*SectionPlacement)(nil),    // 6: strayleaf.v1.SectionPlacement
+	(*BlockChange)(nil),         // 7: strayleaf.v1.BlockChange
+	(*GroupShare)(nil),          // 8: strayleaf.v1.GroupShare
+	(*PlaceStreamRequest)(nil),  // 9: strayleaf.v1.PlaceStreamRequest
+	(*PlaceStreamResponse)(nil), // 10: strayleaf.v1.PlaceStreamResponse
+	(*WitnessError)(nil),        // 11: strayleaf.v1.WitnessError
+	(*FieldViolation)(nil),      // 12: strayleaf.v1.FieldViolation
+	(*SuggestRequest)(nil),      // 13: strayleaf.v1.SuggestRequest
+	(*SuggestResponse)(nil),     // 14: strayleaf.v1.SuggestResponse
+	(*UnitSuggestion)(nil),      // 15: strayleaf.v1.UnitSuggestion
+	(*ReadingHint)(nil),         // 16: strayleaf.v1.ReadingHint
+	nil,                         // 17: strayleaf.v1.UnitSuggestion.HintsEntry
 }
 var file_strayleaf_v1_placement_service_proto_depIdxs = []int32{
 	0,  // 0: strayleaf.v1.PlaceRequest.readings:type_name -> strayleaf.v1.WitnessReading
 	3,  // 1: strayleaf.v1.PlaceResponse.placement:type_name -> strayleaf.v1.Placement
-	4,  // 2: strayleaf.v1.Placement.groups:type_name -> strayleaf.v1.GroupShare
-	0,  // 3: strayleaf.v1.PlaceStreamRequest.readings:type_name -> strayleaf.v1.WitnessReading
-	3,  // 4: strayleaf.v1.PlaceStreamResponse.placement:type_name -> strayleaf.v1.Placement
-	7,  // 5: strayleaf.v1.PlaceStreamResponse.error:type_name -> strayleaf.v1.WitnessError
-	8,  // 6: strayleaf.v1.WitnessError.field_violations:type_name -> strayleaf.v1.FieldViolation
-	0,  // 7: strayleaf.v1.SuggestRequest.readings:type_name -> strayleaf.v1.WitnessReading
-	4,  // 8: strayleaf.v1.SuggestResponse.posterior:type_name -> strayleaf.v1.GroupShare
-	11, // 9: strayleaf.v1.SuggestResponse.units:type_name -> strayleaf.v1.UnitSuggestion
-	13, // 10: strayleaf.v1.UnitSuggestion.hints:type_name -> strayleaf.v1.UnitSuggestion.HintsEntry
-	12, // 11: strayleaf.v1.UnitSuggestion.readings:type_name -> strayleaf.v1.ReadingHint
-	1,  // 12: strayleaf.v1.PlacementService.Place:input_type -> strayleaf.v1.PlaceRequest
-	5,  // 13: strayleaf.v1.PlacementService.PlaceStream:input_type -> strayleaf.v1.PlaceStreamRequest
-	9,  // 14: strayleaf.v1.PlacementService.Suggest:input_type -> strayleaf.v1.SuggestRequest
-	2,  // 15: strayleaf.v1.PlacementService.Place:output_type -> strayleaf.v1.PlaceResponse
-	6,  // 16: strayleaf.v1.PlacementService.PlaceStream:output_type -> strayleaf.v1.PlaceStreamResponse
-	10, // 17: strayleaf.v1.PlacementService.Suggest:output_type -> strayleaf.v1.SuggestResponse
-	15, // [15:18] is the sub-list for method output_type
-	12, // [12:15] is the sub-list for method input_type
-	12, // [12:12] is the sub-list for extension type_name
-	12, // [12:12] is the sub-list for extension extendee
-	0,  // [0:12] is the sub-list for field type_name
+	8,  // 2: strayleaf.v1.Placement.groups:type_name -> strayleaf.v1.GroupShare
+	4,  // 3: strayleaf.v1.Placement.mixture:type_name -> strayleaf.v1.Mixture
+	5,  // 4: strayleaf.v1.Placement.nearest:type_name -> strayleaf.v1.Neighbour
+	6,  // 5: strayleaf.v1.Placement.sections:type_name -> strayleaf.v1.SectionPlacement
+	7,  // 6: strayleaf.v1.Placement.block_changes:type_name -> strayleaf.v1.BlockChange
+	0,  // 7: strayleaf.v1.PlaceStreamRequest.readings:type_name -> strayleaf.v1.WitnessReading
+	3,  // 8: strayleaf.v1.PlaceStreamResponse.placement:type_name -> strayleaf.v1.Placement
+	11, // 9: strayleaf.v1.PlaceStreamResponse.error:type_name -> strayleaf.v1.WitnessError
+	12, // 10: strayleaf.v1.WitnessError.field_violations:type_name -> strayleaf.v1.FieldViolation
+	0,  // 11: strayleaf.v1.SuggestRequest.readings:type_name -> strayleaf.v1.WitnessReading
+	8,  // 12: strayleaf.v1.SuggestResponse.posterior:type_name -> strayleaf.v1.GroupShare
+	15, // 13: strayleaf.v1.SuggestResponse.units:type_name -> strayleaf.v1.UnitSuggestion
+	17, // 14: strayleaf.v1.UnitSuggestion.hints:type_name -> strayleaf.v1.UnitSuggestion.HintsEntry
+	16, // 15: strayleaf.v1.UnitSuggestion.readings:type_name -> strayleaf.v1.ReadingHint
+	1,  // 16: strayleaf.v1.PlacementService.Place:input_type -> strayleaf.v1.PlaceRequest
+	9,  // 17: strayleaf.v1.PlacementService.PlaceStream:input_type -> strayleaf.v1.PlaceStreamRequest
+	13, // 18: strayleaf.v1.PlacementService.Suggest:input_type -> strayleaf.v1.SuggestRequest
+	2,  // 19: strayleaf.v1.PlacementService.Place:output_type -> strayleaf.v1.PlaceResponse
+	10, // 20: strayleaf.v1.PlacementService.PlaceStream:output_type -> strayleaf.v1.PlaceStreamResponse
+	14, // 21: strayleaf.v1.PlacementService.Suggest:output_type -> strayleaf.v1.SuggestResponse
+	19, // [19:22] is the sub-list for method output_type
+	16, // [16:19] is the sub-list for method input_type
+	16, // [16:16] is the sub-list for extension type_name
+	16, // [16:16] is the sub-list for extension extendee
+	0,  // [0:16] is the sub-list for field type_name
 }
 
 func init() { file_strayleaf_v1_placement_service_proto_init() }
@@ -1093,7 +1560,8 @@ func file_strayleaf_v1_placement_service_proto_init() {
 	if File_strayleaf_v1_placement_service_proto != nil {
 		return
 	}
-	file_strayleaf_v1_placement_service_proto_msgTypes[6].OneofWrappers = []any{
+	file_strayleaf_v1_placement_service_proto_msgTypes[3].OneofWrappers = []any{}
+	file_strayleaf_v1_placement_service_proto_msgTypes[10].OneofWrappers = []any{
 		(*PlaceStreamResponse_Placement)(nil),
 		(*PlaceStreamResponse_Error)(nil),
 	}
@@ -1103,7 +1571,7 @@ func file_strayleaf_v1_placement_service_proto_init() {
 			GoPackagePath: reflect.TypeOf(x{}).PkgPath(),
 			RawDescriptor: unsafe.Slice(unsafe.StringData(file_strayleaf_v1_placement_service_proto_rawDesc), len(file_strayleaf_v1_placement_service_proto_rawDesc)),
 			NumEnums:      0,
-			NumMessages:   14,
+			NumMessages:   18,
 			NumExtensions: 0,
 			NumServices:   1,
 		},
