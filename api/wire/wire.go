@@ -11,6 +11,7 @@
 package wire
 
 import (
+	"encoding/binary"
 	"errors"
 	"unicode/utf8"
 	"unsafe"
@@ -125,8 +126,12 @@ func AppendRequest(b []byte, req *Request) []byte {
 	for _, r := range req.Readings {
 		unit, reading := r.GetUnit(), r.GetReading()
 		n := stringSize(unit) + stringSize(reading)
-		b = protowire.AppendTag(b, fieldReadings, protowire.BytesType)
-		b = protowire.AppendVarint(b, uint64(n))
+		if n < 0x80 {
+			b = append(b, byte(fieldReadings)<<3|byte(protowire.BytesType), byte(n))
+		} else {
+			b = protowire.AppendTag(b, fieldReadings, protowire.BytesType)
+			b = protowire.AppendVarint(b, uint64(n))
+		}
 		b = appendString(b, fieldUnit, unit)
 		b = appendString(b, fieldReading, reading)
 	}
@@ -145,8 +150,29 @@ func appendString(b []byte, num protowire.Number, s string) []byte {
 	if s == "" {
 		return b
 	}
+	if len(s) < 0x80 && num < 16 {
+		// One-byte tag and length: the common case of short unit ids and readings.
+		b = append(b, byte(num)<<3|byte(protowire.BytesType), byte(len(s)))
+		return append(b, s...)
+	}
 	b = protowire.AppendTag(b, num, protowire.BytesType)
 	return protowire.AppendString(b, s)
+}
+
+// isASCII reports whether every byte of b is below 0x80, eight bytes at a time.
+func isASCII(b []byte) bool {
+	for len(b) >= 8 {
+		if binary.LittleEndian.Uint64(b)&0x8080808080808080 != 0 {
+			return false
+		}
+		b = b[8:]
+	}
+	for _, c := range b {
+		if c >= 0x80 {
+			return false
+		}
+	}
+	return true
 }
 
 // errFallback sends a message to the standard decoder.
@@ -185,6 +211,9 @@ func decodeRequest(buf []byte, r *Request) error {
 		return nil
 	}
 	all := unsafe.String(&buf[0], len(buf))
+	// A message of ASCII bytes only (tags and lengths below 0x80 included) holds only valid
+	// UTF-8 strings: one pass over it spares checking every string.
+	ascii := isASCII(buf)
 	// First pass: check the framing and count the readings, so that they are allocated at once.
 	n := 0
 	for off := 0; off < len(buf); {
@@ -246,7 +275,7 @@ func decodeRequest(buf []byte, r *Request) error {
 		off = end
 		if num != fieldReadings {
 			s := all[start:end]
-			if !utf8.ValidString(s) {
+			if !ascii && !utf8.ValidString(s) {
 				return errFallback
 			}
 			if num == fieldModel {
@@ -281,7 +310,7 @@ func decodeRequest(buf []byte, r *Request) error {
 			}
 			if rn == fieldUnit || rn == fieldReading {
 				val := all[p+fs : p+fe]
-				if !utf8.ValidString(val) {
+				if !ascii && !utf8.ValidString(val) {
 					return errFallback
 				}
 				if rn == fieldUnit {

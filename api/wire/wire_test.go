@@ -3,6 +3,7 @@ package wire
 import (
 	"bytes"
 	"fmt"
+	"strings"
 	"testing"
 
 	"google.golang.org/grpc/mem"
@@ -29,8 +30,12 @@ func sample(n int) *pb.PlaceRequest {
 func TestAppendRequestMatchesProtobuf(t *testing.T) {
 	asked := sample(3)
 	asked.Nearest, asked.BySection = 5, true
+	long := sample(2) // lengths past one varint byte, non-ASCII readings
+	long.Readings = append(long.Readings, &pb.WitnessReading{Unit: strings.Repeat("u", 130), Reading: "þorn"},
+		&pb.WitnessReading{Unit: "w", Reading: strings.Repeat("ð", 70)})
+	long.Witness = strings.Repeat("W", 300)
 	for _, m := range []*pb.PlaceRequest{{}, {Witness: "x"}, sample(1), sample(400), {Readings: []*pb.WitnessReading{{}}},
-		asked, {Nearest: -2}, {Nearest: 1 << 30}, {BySection: true}} {
+		asked, {Nearest: -2}, {Nearest: 1 << 30}, {BySection: true}, long} {
 		want, err := proto.MarshalOptions{Deterministic: true}.Marshal(m)
 		if err != nil {
 			t.Fatal(err)
@@ -112,7 +117,12 @@ func TestDecodeMatchesProtobuf(t *testing.T) {
 	optionWrongType = protowire.AppendString(optionWrongType, "yes")
 	overlong := protowire.AppendTag(nil, fieldNearest, protowire.VarintType)
 	overlong = append(overlong, 0xff, 0xff, 0xff, 0xff, 0xff, 0xff, 0xff, 0xff, 0xff, 0xff, 0x01)
+	nonASCII, _ := proto.Marshal(&pb.PlaceRequest{Witness: "Æ-f1", Readings: []*pb.WitnessReading{{Unit: "u1", Reading: "þorn"}}})
+	badReading := appendString(nil, fieldWitness, "ok")
+	badReading = protowire.AppendTag(badReading, fieldReadings, protowire.BytesType)
+	badReading = protowire.AppendBytes(badReading, protowire.AppendBytes(protowire.AppendTag(nil, fieldReading, protowire.BytesType), []byte{'a', 0xc3}))
 	for name, b := range map[string][]byte{
+		"non-ASCII UTF-8": nonASCII, "invalid UTF-8 in a reading": badReading,
 		"empty": nil, "sample": good, "unknown fields and repeats": odd, "invalid UTF-8": badUTF8,
 		"wrong wire type": wrongType, "truncated": good[:len(good)-3], "garbage": []byte{0x1a, 0xff, 0xff, 0xff},
 		"nearest and by_section": withOptions, "odd option values": options, "option of the wrong wire type": optionWrongType,
