@@ -3,6 +3,7 @@ package api_test
 import (
 	"context"
 	"encoding/json"
+	"math"
 	"reflect"
 	"slices"
 	"testing"
@@ -175,6 +176,15 @@ func TestPlaceNearestAndBySectionOverGRPCAndREST(t *testing.T) {
 	if _, err := c.PlaceWith(ctx, "wardens", witnesses[0].Siglum, witnesses[0].Readings, client.PlaceOptions{Nearest: -1}); client.Code(err) != codes.InvalidArgument ||
 		len(err.(*client.Error).Violations) != 1 || err.(*client.Error).Violations[0].Field != "nearest" {
 		t.Errorf("nearest -1: %v", err)
+	}
+	// A count far beyond the training witnesses names at most all of them (it once sized a
+	// buffer of that many and ran the daemon out of memory).
+	huge, err := c.PlaceWith(ctx, "wardens", witnesses[0].Siglum, witnesses[0].Readings, client.PlaceOptions{Nearest: math.MaxInt32})
+	if err != nil {
+		t.Fatalf("nearest MaxInt32: %v", err)
+	}
+	if nt := len(m.Proto().GetTrainingWitnesses()); len(huge.Nearest) == 0 || len(huge.Nearest) > nt {
+		t.Errorf("nearest MaxInt32: %d witnesses named; want 1 to %d", len(huge.Nearest), nt)
 	}
 	flat := synthModel(20, 3, 5)
 	for _, u := range flat.Units {

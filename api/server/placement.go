@@ -103,7 +103,10 @@ func (s *Server) placeOne(ctx context.Context, m *model.Model, ref string, witne
 		}
 	} else {
 		// Nearest witnesses cost a comparison with every training witness: only when asked.
-		pl, err = m.PlaceWith(witness, rs, sc.ws, model.PlaceOptions{Nearest: int(ask.nearest)})
+		// No more can be named than the model has training witnesses; the cap keeps a huge
+		// request from sizing the answer's buffer.
+		nearest := min(int(ask.nearest), len(m.Proto().GetTrainingWitnesses()))
+		pl, err = m.PlaceWith(witness, rs, sc.ws, model.PlaceOptions{Nearest: nearest})
 	}
 	if err != nil {
 		return nil, placeProblem(err, ref, bad)
