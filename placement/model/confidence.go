@@ -96,7 +96,8 @@ type calibrationMap struct {
 
 // parseCalibration returns the usable calibration of a model, or nil if it has none or one this
 // build does not understand: another method, a feature it does not compute, another number of
-// resamples, or thresholds and values out of order (then the provisional confidence is used).
+// resamples, a number that is not finite, or thresholds and values out of order (then the
+// provisional confidence is used).
 func parseCalibration(c *pb.Calibration) *calibrationMap {
 	if c == nil || c.Method != MethodLogisticIsotonic || len(c.Coefficients) != len(c.Features)+1 ||
 		len(c.Thresholds) == 0 || len(c.Thresholds) != len(c.Values) {
@@ -109,6 +110,13 @@ func parseCalibration(c *pb.Calibration) *calibrationMap {
 	}
 	if _, err := (Features{}).Values(c.Features); err != nil {
 		return nil
+	}
+	for _, list := range [][]float64{c.Coefficients, c.Thresholds, c.Values} {
+		for _, v := range list {
+			if math.IsNaN(v) || math.IsInf(v, 0) {
+				return nil
+			}
+		}
 	}
 	for i := 1; i < len(c.Thresholds); i++ {
 		if !(c.Thresholds[i] >= c.Thresholds[i-1]) || !(c.Values[i] >= c.Values[i-1]) {
@@ -129,10 +137,11 @@ func CalibrationScore(coef, values []float64) float64 {
 
 // InterpolateSteps reads the isotonic map given by increasing thresholds and their values at x:
 // linear interpolation between neighbouring thresholds, the end values beyond them (as
-// numpy.interp does, and so scikit-learn's IsotonicRegression with out_of_bounds="clip").
+// numpy.interp does, and so scikit-learn's IsotonicRegression with out_of_bounds="clip"). It
+// returns NaN for no thresholds or x = NaN.
 func InterpolateSteps(thresholds, values []float64, x float64) float64 {
 	n := len(thresholds)
-	if n == 0 {
+	if n == 0 || math.IsNaN(x) {
 		return math.NaN()
 	}
 	if x <= thresholds[0] {

@@ -467,3 +467,35 @@ func TestConcurrentGuidance(t *testing.T) {
 		}
 	}
 }
+
+// A calibration with a non-finite number in it (a damaged or hand-made bundle) is not used, and
+// reading an isotonic map at NaN gives NaN instead of indexing past its end.
+func TestNonFiniteCalibrationFallsBack(t *testing.T) {
+	m, tr := smallModel(t)
+	nan := math.NaN()
+	for _, c := range []*pb.Calibration{
+		{Coefficients: []float64{nan, 1}, Thresholds: []float64{0, 1}, Values: []float64{0.1, 0.9}},
+		{Coefficients: []float64{0, 1}, Thresholds: []float64{nan}, Values: []float64{0.5}},
+		{Coefficients: []float64{0, 1}, Thresholds: []float64{0, 1}, Values: []float64{0.1, math.Inf(1)}},
+	} {
+		pm := proto.Clone(m.Proto()).(*pb.Model)
+		c.Method, c.Features = MethodLogisticIsotonic, []string{"margin"}
+		pm.Calibration = c
+		m2, err := FromProto(pm)
+		if err != nil {
+			t.Fatal(err)
+		}
+		p, err := m2.Place("a", rowReadings(tr.Collation, tr.Collation.Row(1)), nil)
+		if err != nil {
+			t.Fatal(err)
+		}
+		if p.Calibrated || math.IsNaN(p.Confidence) {
+			t.Errorf("calibration %v: calibrated %v, confidence %v; want the provisional confidence", c, p.Calibrated, p.Confidence)
+		}
+	}
+	for _, th := range [][]float64{{0}, {0, 1}, {0, 1, 2}} {
+		if v := InterpolateSteps(th, th, nan); !math.IsNaN(v) {
+			t.Errorf("InterpolateSteps(%v, NaN) = %v; want NaN", th, v)
+		}
+	}
+}
