@@ -36,7 +36,7 @@ func runDemo(ctx context.Context, args []string, stdout, stderr io.Writer) error
 	fs := newFlags("demo", "demo [--keep DIR] [--verbose]", stderr)
 	keep := fs.String("keep", "", "keep the store and tokens file in this directory (default: a temporary one, removed)")
 	verbose := fs.Bool("verbose", false, "show the service's log")
-	if err := fs.Parse(args); err != nil {
+	if err := parseFlags(fs, args); err != nil {
 		return err
 	}
 	if fs.NArg() > 0 {

@@ -49,7 +49,7 @@ func runGroups(ctx context.Context, args []string, stdout, stderr io.Writer) err
 	var src modelSource
 	src.flags(fs)
 	format := fs.String("format", "table", "output: table, csv (one row per leading witness and per profile reading), tei (TEI P5 witness list and group divisions) or json")
-	if err := fs.Parse(args); err != nil {
+	if err := parseFlags(fs, args); err != nil {
 		return err
 	}
 	if fs.NArg() > 0 {

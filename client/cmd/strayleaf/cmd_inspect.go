@@ -53,7 +53,7 @@ func runInspect(ctx context.Context, args []string, stdout, stderr io.Writer) er
 	popt := prepare.DefaultOptions()
 	fs.IntVar(&popt.MinSupport, "min-support", popt.MinSupport, "least witnesses a reading needs to be kept")
 	fs.Float64Var(&popt.MinCoverage, "min-coverage", popt.MinCoverage, "least share of kept units a training witness must be extant at")
-	if err := fs.Parse(args); err != nil {
+	if err := parseFlags(fs, args); err != nil {
 		return err
 	}
 	if *path == "" {

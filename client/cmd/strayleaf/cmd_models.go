@@ -137,7 +137,7 @@ func defaultActor() string {
 func parseModelsFlags(fs *flag.FlagSet, args []string, positional ...string) ([]string, error) {
 	var pos []string
 	for {
-		if err := fs.Parse(args); err != nil {
+		if err := parseFlags(fs, args); err != nil {
 			return nil, err
 		}
 		args = fs.Args()

@@ -136,7 +136,7 @@ func runPlace(ctx context.Context, args []string, stdout, stderr io.Writer) erro
 	asJSON := fs.Bool("json", false, "print JSON lines, one object per witness (same as --format json)")
 	outFormat := fs.String("format", "table", "output: table, json (JSON lines), csv or tei")
 	bySection := fs.Bool("by-section", false, "also place each section's readings separately and report a change of exemplar (block mixture)")
-	if err := fs.Parse(args); err != nil {
+	if err := parseFlags(fs, args); err != nil {
 		return err
 	}
 	if *path == "" {

@@ -65,7 +65,7 @@ func runRank(ctx context.Context, args []string, stdout, stderr io.Writer) error
 	fs.Float64Var(&popt.MinCoverage, "min-coverage", popt.MinCoverage, "least share of kept units a training witness must be extant at")
 	asJSON := fs.Bool("json", false, "print one JSON object")
 	quiet := fs.Bool("quiet", false, "no progress on the terminal")
-	if err := fs.Parse(args); err != nil {
+	if err := parseFlags(fs, args); err != nil {
 		return err
 	}
 	if *path == "" {

@@ -56,7 +56,7 @@ func runSuggest(ctx context.Context, args []string, stdout, stderr io.Writer) er
 	top := fs.Int("top", 10, "number of units to name per witness")
 	candidates := fs.String("candidates", "", "file of unit ids, one per line, that can still be checked (e.g. the text a leaf preserves); default: every unit")
 	asJSON := fs.Bool("json", false, "print JSON lines, one object per witness")
-	if err := fs.Parse(args); err != nil {
+	if err := parseFlags(fs, args); err != nil {
 		return err
 	}
 	if *path == "" {

@@ -25,7 +25,7 @@ func runToken(ctx context.Context, args []string, stdout, stderr io.Writer) erro
 	fs := newFlags("token new", "token new --name NAME --role place|publish|admin", stderr)
 	name := fs.String("name", "", "who holds the token (shown in the server's log and the store's history)")
 	roleName := fs.String("role", "", "place (read models, place, suggest), publish (also publish and set aliases) or admin (also delete and export)")
-	if err := fs.Parse(args[1:]); err != nil {
+	if err := parseFlags(fs, args[1:]); err != nil {
 		return err
 	}
 	if fs.NArg() > 0 {

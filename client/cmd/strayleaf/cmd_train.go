@@ -85,7 +85,7 @@ func runTrain(ctx context.Context, args []string, stdout, stderr io.Writer) erro
 	plotPath := fs.String("reliability-plot", "", "write the calibration's reliability diagram to this SVG file")
 	asJSON := fs.Bool("json", false, "print one JSON object")
 	quiet := fs.Bool("quiet", false, "no progress on the terminal")
-	if err := fs.Parse(args); err != nil {
+	if err := parseFlags(fs, args); err != nil {
 		return err
 	}
 	switch {

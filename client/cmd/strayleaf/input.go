@@ -5,6 +5,8 @@ import (
 	"crypto/sha256"
 	"encoding/hex"
 	"encoding/json"
+	"errors"
+	"flag"
 	"fmt"
 	"io"
 	"os"
@@ -85,13 +87,24 @@ func writeJSON(w io.Writer, v any) error {
 }
 
 // usageErr is bad command-line use; the command exits with status 2.
-type usageErr struct{ msg string }
+type usageErr struct{ where, msg string }
 
-func (e *usageErr) Error() string { return e.msg }
+func (e *usageErr) Error() string { return e.where + ": " + e.msg }
 
-// usageError reports bad command-line use; it exits with status 2.
+// usageError reports bad command-line use; it exits with status 2. fsName is the command or
+// subcommand ("place", "strayleaf models publish").
 func usageError(fsName, format string, args ...any) error {
-	return &usageErr{fmt.Sprintf("%s: %s (see --help)", fsName, fmt.Sprintf(format, args...))}
+	return &usageErr{strings.TrimPrefix(fsName, "strayleaf "), fmt.Sprintf(format, args...) + " (see --help)"}
+}
+
+// parseFlags parses args into fs; a bad flag or flag value is a usage error (exit status 2),
+// and --help is passed on as flag.ErrHelp.
+func parseFlags(fs *flag.FlagSet, args []string) error {
+	err := fs.Parse(args)
+	if err == nil || errors.Is(err, flag.ErrHelp) {
+		return err
+	}
+	return &usageErr{strings.TrimPrefix(fs.Name(), "strayleaf "), err.Error()}
 }
 
 func sha256Hex(b []byte) string {

@@ -70,11 +70,13 @@ func run(ctx context.Context, args []string, stdout, stderr io.Writer) int {
 	if errors.As(err, &ee) {
 		return ee.code
 	}
-	fmt.Fprintf(stderr, "strayleaf %s: %v\n", c.name, err)
 	var ue *usageErr
 	if errors.As(err, &ue) {
+		// The usage error names the (sub)command itself.
+		fmt.Fprintf(stderr, "strayleaf %v\n", err)
 		return 2
 	}
+	fmt.Fprintf(stderr, "strayleaf %s: %v\n", c.name, err)
 	return 1
 }
 
