@@ -67,12 +67,17 @@ func (l *unitLookup) row(label string) (int, bool) {
 	return -1, false
 }
 
+// MaxGroups is the largest number of groups a model may have. Work on a large tradition rarely
+// looks at more than about 20 groups (common practice); the cap keeps a crafted bundle from
+// asking for memory in proportion to k^2 per unit.
+const MaxGroups = 100
+
 // FromProto validates m and builds its placement indexes.
 func FromProto(m *pb.Model) (*Model, error) {
 	k := int(m.GroupCount)
 	nr := len(m.Rows)
-	if k < 1 {
-		return nil, fmt.Errorf("model: group_count is %d; expected at least 1", k)
+	if k < 1 || k > MaxGroups {
+		return nil, fmt.Errorf("model: group_count is %d; expected 1 to %d groups", k, MaxGroups)
 	}
 	if nr == 0 {
 		return nil, fmt.Errorf("model: no profile rows")

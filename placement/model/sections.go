@@ -84,7 +84,7 @@ func (m *Model) PlaceBySection(witness string, readings []Reading, ws *placement
 			continue
 		}
 		sp := SectionPlacement{Section: g.sections[s]}
-		p, err := m.Place(witness, rs, ws)
+		p, err := m.PlaceWith(witness, rs, ws, PlaceOptions{})
 		switch {
 		case err == nil:
 			sp.BestGroup, sp.Confidence, sp.CoveredUnits, sp.Groups, sp.Placement = p.BestGroup, p.Confidence, p.CoveredUnits, p.Groups, p

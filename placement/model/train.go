@@ -51,8 +51,8 @@ func Train(c *collation.Collation, opt TrainOptions) (*pb.Model, *prepare.Prepar
 	if opt.Prepare == (prepare.Options{}) {
 		opt.Prepare = prepare.DefaultOptions()
 	}
-	if opt.Groups < 1 {
-		return nil, nil, fmt.Errorf("groups is %d; expected a number of groups >= 1", opt.Groups)
+	if opt.Groups < 1 || opt.Groups > MaxGroups {
+		return nil, nil, fmt.Errorf("groups is %d; expected a number of groups from 1 to %d", opt.Groups, MaxGroups)
 	}
 	p, err := prepare.Prepare(c, opt.Prepare)
 	if err != nil {

@@ -255,3 +255,15 @@ func TestPlaceInputErrors(t *testing.T) {
 		t.Errorf("unknown readings %v", pl.UnknownReadings)
 	}
 }
+
+// A bundle claiming more groups than any model may have is refused before memory is taken for it.
+func TestFromProtoRefusesTooManyGroups(t *testing.T) {
+	m := &pb.Model{GroupCount: MaxGroups + 1, Units: []*pb.ModelUnit{{Id: "u1", Readings: []string{"a", "b"}, RowStart: 0, RowEnd: 1}},
+		Rows: []*pb.ProfileRow{{Unit: 0, Reading: 0, Support: 2, Weight: 1}}, Profile: make([]float64, MaxGroups+1)}
+	if _, err := FromProto(m); err == nil {
+		t.Fatal("a model with too many groups was accepted")
+	}
+	if _, _, err := Train(simulated(t, 5, 40, 80, nil).Collation, TrainOptions{Groups: MaxGroups + 1}); err == nil {
+		t.Fatal("training with too many groups was accepted")
+	}
+}
