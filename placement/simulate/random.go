@@ -17,7 +17,8 @@ func newRand(seed uint64) *rand.Rand {
 }
 
 // intN returns a uniform integer in [0, n) for n > 0, by Lemire's multiply-and-reject method
-// (Lemire 2019, ACM TOMACS 29(1), "Fast random integer generation in an interval").
+// (Lemire 2019, ACM TOMACS 29(1), "Fast random integer generation in an interval"; from
+// memory).
 func intN(rng *rand.Rand, n int) int {
 	if n <= 1 {
 		return 0
@@ -42,7 +43,7 @@ func float01(rng *rand.Rand) float64 {
 func chance(rng *rand.Rand, p float64) bool { return float01(rng) < p }
 
 // poisson draws a Poisson(lambda) count by Knuth's product-of-uniforms method (Knuth, TAOCP
-// vol. 2, 3.4.1), fine for the small means used here.
+// vol. 2, 3.4.1, from memory), fine for the small means used here.
 func poisson(rng *rand.Rand, lambda float64) int {
 	if lambda <= 0 {
 		return 0
@@ -58,7 +59,8 @@ func poisson(rng *rand.Rand, lambda float64) int {
 	}
 }
 
-// shuffle permutes s uniformly (Fisher-Yates, Knuth's Algorithm P).
+// shuffle permutes s uniformly (Fisher-Yates; Knuth, TAOCP vol. 2, 3.4.2, Algorithm P, from
+// memory).
 func shuffle[T any](rng *rand.Rand, s []T) {
 	for i := len(s) - 1; i > 0; i-- {
 		j := intN(rng, i+1)

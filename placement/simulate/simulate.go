@@ -8,12 +8,16 @@
 //     of the units; each group of the family has an exemplar that departs from the hyparchetype
 //     at a share GroupDivergence. Groups of one family are thus close to each other (sub-groups),
 //     and groups of different families further apart. A departure takes a pool reading other
-//     than the parent's, uniformly. Every unit is a true variation unit: where no family or group
-//     departs, the departures at that unit are drawn again until one does.
+//     than the parent's, uniformly. Where no family or group departs at a unit, the departures at
+//     that unit are drawn again until one does. The exemplars then nearly always differ there,
+//     though not always (every family may depart to the same reading; with one family, its
+//     departure is shared by all its groups), and copyists' changes can blur a departure that
+//     few copies carry, so a unit may still end up carrying no grouping signal.
 //   - Each witness is a copy of its group's exemplar. At each unit the copyist changes the
 //     reading with probability ScribalRate: with probability CoincidentShare to a reading that
-//     the exemplar of another group has there (a coincidental agreement), otherwise to a new
-//     reading of his own (a singular reading).
+//     the exemplar of another group has there (a coincidental agreement; if every other
+//     exemplar has the copyist's reading, another pool reading), otherwise to a new reading of
+//     his own (a singular reading).
 //   - Mixed witnesses take each unit from a secondary group's exemplar with probability equal to
 //     their mixture share, and from their own group's otherwise.
 //   - Block-mixed witnesses copy their own group's exemplar up to a section boundary and another

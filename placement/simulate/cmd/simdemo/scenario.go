@@ -24,8 +24,9 @@ var scriptoria = []string{"hollinsgarth", "quarrenby", "fennick", "marrowgate", 
 // library code and a shelf number (Kd14), a fragment's a code, "-f" and a number (Kd-f1).
 var libraries = []string{"Ov", "Kd", "Bw", "Lm", "Ry", "Ht", "Cx", "Vn"}
 
-// demoWitnesses is the number of copies simulated; demoFragments of them are taken out of the
-// collation and cut down to the fragments to place.
+// demoWitnesses is the number of copies simulated; len(fragmentPlans) of them are taken out of
+// the collation and cut down to the fragments to place. demoUnits is the number of variation
+// units.
 const (
 	demoWitnesses = 98
 	demoUnits     = 240
@@ -33,7 +34,7 @@ const (
 
 // fragmentPlan says what each demo fragment is cut from and how.
 type fragmentPlan struct {
-	group int           // the scriptorium of the copy it is cut from; -1: a mixed copy
+	group int           // the scriptorium of the copy it is cut from; -1: any (used for the mixed copy)
 	form  string        // simulate.FormLeaf, FormLeaves or FormScattered
 	kind  simulate.Kind // kind of copy cut from
 }
