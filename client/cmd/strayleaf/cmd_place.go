@@ -18,34 +18,11 @@ func init() {
 	register(&command{name: "place", summary: "place witnesses or fragments into the groups of a model", run: runPlace})
 }
 
-// placementJSON is one line of `strayleaf place --json`. Its field names are a contract.
+// placementJSON is one line of `strayleaf place --json`: the client's placement (its field names
+// are a contract, shared with the API's JSON) and, for a witness that could not be placed, the error.
 type placementJSON struct {
-	Witness            string     `json:"witness"`
-	Model              string     `json:"model,omitempty"`
-	BestGroup          string     `json:"best_group"`
-	Groups             []shareOut `json:"groups"`
-	Confidence         float64    `json:"confidence"`
-	CoveredUnits       int        `json:"covered_units"`
-	UsedUnits          int        `json:"used_units"`
-	UnknownReadings    []string   `json:"unknown_readings"`
-	UninformativeUnits []string   `json:"uninformative_units"`
-	RelativeResidual   float64    `json:"relative_residual"`
-	// InformativeCoverage, Calibrated, Mixed, Mixture and Nearest: see place_guidance.go.
-	InformativeCoverage float64       `json:"informative_coverage"`
-	Calibrated          bool          `json:"calibrated"`
-	Mixed               bool          `json:"mixed"`
-	Mixture             *mixtureJSON  `json:"mixture,omitempty"`
-	Nearest             []nearestJSON `json:"nearest,omitempty"`
-	// Sections, BlockMixture and Changes are given with --by-section.
-	Sections     []sectionJSON `json:"sections,omitempty"`
-	BlockMixture *bool         `json:"block_mixture,omitempty"`
-	Changes      []changeJSON  `json:"block_changes,omitempty"`
-	Error        string        `json:"error,omitempty"`
-}
-
-type shareOut struct {
-	Group string  `json:"group"`
-	Share float64 `json:"share"`
+	client.Placement
+	Error string `json:"error,omitempty"`
 }
 
 // witnessInput is one witness read from a witnesses file.
@@ -70,15 +47,17 @@ func witnessesFromCollation(c *collation.Collation) []witnessInput {
 	return out
 }
 
+// placementOut is a local placement in the shape of a placement answered by a strayleafd.
 func placementOut(p *model.Placement, ref string) placementJSON {
-	out := placementJSON{Witness: p.Witness, Model: ref, BestGroup: p.BestGroup, Confidence: p.Confidence,
+	out := client.Placement{Witness: p.Witness, Model: ref, BestGroup: p.BestGroup, Confidence: p.Confidence,
 		CoveredUnits: p.CoveredUnits, UsedUnits: p.UsedUnits, RelativeResidual: p.RelativeResidual,
-		UnknownReadings: nonNil(p.UnknownReadings), UninformativeUnits: nonNil(p.UninformativeUnits)}
-	for _, g := range p.Groups {
-		out.Groups = append(out.Groups, shareOut{g.Group, g.Share})
+		UnknownReadings: nonNil(p.UnknownReadings), UninformativeUnits: nonNil(p.UninformativeUnits),
+		Groups: make([]client.GroupShare, len(p.Groups))}
+	for i, g := range p.Groups {
+		out.Groups[i] = client.GroupShare{Group: g.Group, Share: g.Share}
 	}
 	addGuidance(&out, p)
-	return out
+	return placementJSON{Placement: out}
 }
 
 func nonNil(s []string) []string {
@@ -215,7 +194,8 @@ func writePlacements(w io.Writer, format string, results []placementJSON) error 
 }
 
 func failedPlacement(witness, ref, msg string) placementJSON {
-	return placementJSON{Witness: witness, Model: ref, Error: msg, Groups: []shareOut{}, UnknownReadings: []string{}, UninformativeUnits: []string{}}
+	return placementJSON{Placement: client.Placement{Witness: witness, Model: ref, Groups: []client.GroupShare{},
+		UnknownReadings: []string{}, UninformativeUnits: []string{}}, Error: msg}
 }
 
 // placeLocal places every witness against a model from a bundle file or a local store.
@@ -240,7 +220,7 @@ func placeLocal(src *modelSource, witnesses []witnessInput, bySection bool) ([]p
 				results = append(results, failedPlacement(w.Witness, ref, "by section: "+err.Error()))
 				continue
 			}
-			addSections(&out, sp)
+			addSections(&out.Placement, sp)
 		}
 		results = append(results, out)
 	}
@@ -277,30 +257,5 @@ func placeRemote(ctx context.Context, remote *remoteFlags, ref string, witnesses
 
 // remotePlacementOut is placementOut for a placement answered by a strayleafd.
 func remotePlacementOut(p *client.Placement) placementJSON {
-	out := placementJSON{Witness: p.Witness, Model: p.Model, BestGroup: p.BestGroup, Confidence: p.Confidence,
-		CoveredUnits: p.CoveredUnits, UsedUnits: p.UsedUnits, RelativeResidual: p.RelativeResidual,
-		UnknownReadings: nonNil(p.UnknownReadings), UninformativeUnits: nonNil(p.UninformativeUnits),
-		InformativeCoverage: p.InformativeCoverage, Calibrated: p.Calibrated, Mixed: p.Mixed}
-	for _, g := range p.Groups {
-		out.Groups = append(out.Groups, shareOut{g.Group, g.Share})
-	}
-	if mx := p.Mixture; mx != nil {
-		out.Mixture = &mixtureJSON{mx.Primary, mx.Secondary, mx.SecondaryShare, mx.LikelihoodShare, mx.LikelihoodRatio}
-	}
-	for _, n := range p.Nearest {
-		out.Nearest = append(out.Nearest, nearestJSON{n.Witness, n.BestGroup, n.Agree, n.UnitsCompared, n.Agreement})
-	}
-	if p.BlockMixture != nil {
-		block := *p.BlockMixture
-		out.BlockMixture = &block
-		out.Sections = []sectionJSON{}
-		out.Changes = []changeJSON{}
-		for _, s := range p.Sections {
-			out.Sections = append(out.Sections, sectionJSON{s.Section, s.BestGroup, s.Confidence, s.CoveredUnits})
-		}
-		for _, c := range p.Changes {
-			out.Changes = append(out.Changes, changeJSON{c.AfterSection, c.AtSection, c.FromGroup, c.ToGroup})
-		}
-	}
-	return out
+	return placementJSON{Placement: *p}
 }

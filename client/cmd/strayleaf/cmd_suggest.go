@@ -10,6 +10,7 @@ import (
 	"strings"
 	"text/tabwriter"
 
+	"strayleaf/client"
 	"strayleaf/placement/model"
 )
 
@@ -17,33 +18,12 @@ func init() {
 	register(&command{name: "suggest", summary: "name the units worth checking next for partial witnesses", run: runSuggest})
 }
 
-// suggestionJSON is one line of `strayleaf suggest --json`. Its field names are a contract.
+// suggestionJSON is one line of `strayleaf suggest --json`: the client's suggestions (their field
+// names are a contract, shared with the API's JSON) and, for a witness that could not be read
+// against the model, the error.
 type suggestionJSON struct {
-	Witness string `json:"witness"`
-	Model   string `json:"model,omitempty"`
-	// Probe is true when nothing was checked yet and units is the model's probe list.
-	Probe bool `json:"probe"`
-	// Posterior is the distribution over the groups given the readings checked so far.
-	Posterior   []shareOut `json:"posterior"`
-	EntropyBits float64    `json:"entropy_bits"`
-	Units       []unitJSON `json:"units"`
-	Error       string     `json:"error,omitempty"`
-}
-
-// unitJSON is one suggested unit: gain is the expected reduction of the uncertainty about the
-// group in bits; hints maps each likely reading to the group it would favour; readings gives
-// their predicted probabilities too, most probable first.
-type unitJSON struct {
-	Unit     string            `json:"unit"`
-	Gain     float64           `json:"gain"`
-	Hints    map[string]string `json:"hints"`
-	Readings []hintJSON        `json:"readings"`
-}
-
-type hintJSON struct {
-	Reading     string  `json:"reading"`
-	Probability float64 `json:"probability"`
-	Favours     string  `json:"favours"`
+	client.Suggestions
+	Error string `json:"error,omitempty"`
 }
 
 func runSuggest(ctx context.Context, args []string, stdout, stderr io.Writer) error {
@@ -90,7 +70,8 @@ func runSuggest(ctx context.Context, args []string, stdout, stderr io.Writer) er
 		s, err := m.Suggest(w.Witness, w.Readings, model.SuggestOptions{Top: *top, Candidates: cand})
 		if err != nil {
 			failed++
-			results = append(results, suggestionJSON{Witness: w.Witness, Model: ref, Posterior: []shareOut{}, Units: []unitJSON{}, Error: err.Error()})
+			results = append(results, suggestionJSON{Suggestions: client.Suggestions{Witness: w.Witness, Model: ref,
+				Posterior: []client.GroupShare{}, Units: []client.Suggestion{}}, Error: err.Error()})
 			continue
 		}
 		results = append(results, suggestionOut(s, ref))
@@ -112,19 +93,20 @@ func runSuggest(ctx context.Context, args []string, stdout, stderr io.Writer) er
 }
 
 func suggestionOut(s *model.Suggestions, ref string) suggestionJSON {
-	out := suggestionJSON{Witness: s.Witness, Model: ref, Probe: s.Probe, EntropyBits: s.Entropy, Posterior: []shareOut{}, Units: []unitJSON{}}
-	for _, g := range s.Posterior {
-		out.Posterior = append(out.Posterior, shareOut{g.Group, g.Share})
+	out := client.Suggestions{Witness: s.Witness, Model: ref, Probe: s.Probe, EntropyBits: s.Entropy,
+		Posterior: make([]client.GroupShare, len(s.Posterior)), Units: make([]client.Suggestion, len(s.Units))}
+	for i, g := range s.Posterior {
+		out.Posterior[i] = client.GroupShare{Group: g.Group, Share: g.Share}
 	}
-	for _, u := range s.Units {
-		uj := unitJSON{Unit: u.Unit, Gain: u.Gain, Hints: map[string]string{}, Readings: []hintJSON{}}
-		for _, h := range u.Hints {
-			uj.Hints[h.Reading] = h.Favours
-			uj.Readings = append(uj.Readings, hintJSON{h.Reading, h.Probability, h.Favours})
+	for i, u := range s.Units {
+		su := client.Suggestion{Unit: u.Unit, Gain: u.Gain, Hints: map[string]string{}, Readings: make([]client.ReadingHint, len(u.Hints))}
+		for j, h := range u.Hints {
+			su.Hints[h.Reading] = h.Favours
+			su.Readings[j] = client.ReadingHint{Reading: h.Reading, Probability: h.Probability, Favours: h.Favours}
 		}
-		out.Units = append(out.Units, uj)
+		out.Units[i] = su
 	}
-	return out
+	return suggestionJSON{Suggestions: out}
 }
 
 func writeSuggestionTable(w io.Writer, results []suggestionJSON) error {
