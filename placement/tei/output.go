@@ -43,7 +43,6 @@ import (
 	"io"
 	"math"
 	"strconv"
-	"unicode/utf8"
 )
 
 // GroupShare is a group's share of a placed witness (its coefficient over the sum of all).
@@ -438,7 +437,8 @@ type idSet struct {
 func newIDs() *idSet { return &idSet{used: map[string]bool{}, next: map[string]int{}} }
 
 // witnesses returns the xml:id of each of n sigla (siglum(i)): the siglum itself when it is an
-// NCName not taken by an earlier one, else a generated "wit-<n>", as WriteApparatus does.
+// NCName not taken by an earlier one, else a generated "wit-<n>" (WriteApparatus, WritePlacements
+// and WriteGroups all name witnesses so).
 func (s *idSet) witnesses(n int, siglum func(int) string) []string {
 	out := make([]string, n)
 	for i := range out {
@@ -526,21 +526,9 @@ func checkUnit(what string, v float64) error {
 	return nil
 }
 
-// checkOutChars reports a string that is not valid UTF-8 or holds a character outside XML
-// 1.0's Char production (XML 1.0, production [2]).
-func checkOutChars(what, s string) error {
-	for i, r := range s {
-		if r == utf8.RuneError {
-			if _, size := utf8.DecodeRuneInString(s[i:]); size == 1 {
-				return fmt.Errorf("writing TEI output: %s %q is not valid UTF-8", what, s)
-			}
-		}
-		if !(r == 0x9 || r == 0xA || r == 0xD || (r >= 0x20 && r <= 0xD7FF) || (r >= 0xE000 && r <= 0xFFFD) || (r >= 0x10000 && r <= 0x10FFFF)) {
-			return fmt.Errorf("writing TEI output: %s %q holds character %U, which XML cannot carry", what, s, r)
-		}
-	}
-	return nil
-}
+// checkOutChars reports, for WritePlacements and WriteGroups, a string that XML cannot carry
+// (see xmlCharsError).
+func checkOutChars(what, s string) error { return xmlCharsError("writing TEI output", what, s) }
 
 // fixed4 formats v in [0, 1] with four decimals.
 func fixed4(v float64) string { return strconv.FormatFloat(v, 'f', 4, 64) }

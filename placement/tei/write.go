@@ -4,7 +4,6 @@ import (
 	"bufio"
 	"fmt"
 	"io"
-	"strconv"
 	"unicode"
 	"unicode/utf8"
 
@@ -30,32 +29,13 @@ import (
 func WriteApparatus(w io.Writer, c *collation.Collation) error {
 	bw := bufio.NewWriterSize(w, 256<<10)
 	nw, nu := c.NumWitnesses(), c.NumUnits()
-	witIDs := make([]string, nw)
-	used := make(map[string]bool, nw)
-	for i, s := range c.Witnesses() {
+	for _, s := range c.Witnesses() {
 		if err := checkChars("siglum", s); err != nil {
 			return err
 		}
-		if isNCName(s) {
-			witIDs[i] = s
-			used[s] = true
-		}
 	}
-	next := 1
-	for i := range witIDs {
-		if witIDs[i] != "" {
-			continue
-		}
-		for {
-			id := "wit-" + strconv.Itoa(next)
-			next++
-			if !used[id] {
-				witIDs[i] = id
-				used[id] = true
-				break
-			}
-		}
-	}
+	ids := newIDs()
+	witIDs := ids.witnesses(nw, c.Witness)
 
 	bw.WriteString(`<?xml version="1.0" encoding="UTF-8"?>
 <TEI xmlns="http://www.tei-c.org/ns/1.0">
@@ -141,7 +121,7 @@ func WriteApparatus(w io.Writer, c *collation.Collation) error {
 			}
 		}
 		bw.WriteString("        <app ")
-		if isNCName(unit.ID) && !used[unit.ID] {
+		if isNCName(unit.ID) && !ids.used[unit.ID] {
 			bw.WriteString(`xml:id="`)
 		} else {
 			bw.WriteString(`n="`)
@@ -223,17 +203,21 @@ func escape(w *bufio.Writer, s string) {
 	w.WriteString(s[last:])
 }
 
-// checkChars reports a string that is not valid UTF-8 or holds a character outside XML 1.0's
-// Char production.
-func checkChars(what, s string) error {
+// checkChars reports, for WriteApparatus, a string that XML cannot carry (see xmlCharsError).
+func checkChars(what, s string) error { return xmlCharsError("writing TEI apparatus", what, s) }
+
+// xmlCharsError reports a string that is not valid UTF-8 or holds a character outside XML 1.0's
+// Char production (XML 1.0, production [2]: #x9 | #xA | #xD | [#x20-#xD7FF] | [#xE000-#xFFFD] |
+// [#x10000-#x10FFFF]); doing and what say what was being written.
+func xmlCharsError(doing, what, s string) error {
 	for i, r := range s {
 		if r == utf8.RuneError {
 			if _, size := utf8.DecodeRuneInString(s[i:]); size == 1 {
-				return fmt.Errorf("writing TEI apparatus: %s %q is not valid UTF-8", what, s)
+				return fmt.Errorf("%s: %s %q is not valid UTF-8", doing, what, s)
 			}
 		}
 		if !(r == 0x9 || r == 0xA || r == 0xD || (r >= 0x20 && r <= 0xD7FF) || (r >= 0xE000 && r <= 0xFFFD) || (r >= 0x10000 && r <= 0x10FFFF)) {
-			return fmt.Errorf("writing TEI apparatus: %s %q holds character %U, which XML cannot carry", what, s, r)
+			return fmt.Errorf("%s: %s %q holds character %U, which XML cannot carry", doing, what, s, r)
 		}
 	}
 	return nil
