@@ -53,6 +53,15 @@ var ErrEmptyFile = errors.New("the file is empty; expected a header line such as
 // ErrNoRows is the error (wrapped in a *ParseError) for a file with a header and no rows.
 var ErrNoRows = errors.New("no rows after the header; expected one row per extant witness-unit pair")
 
+// MaxCells is the largest witnesses x units table ReadCSV builds (100,000,000 cells, about 400
+// MB, the TEI reader's default limit too). The long form names only the extant cells, so a short
+// file can describe a huge table; a larger one is refused with a *ParseError at the row that
+// would pass the limit.
+const MaxCells = 100_000_000
+
+// maxCells is MaxCells, lowered by tests.
+var maxCells int64 = MaxCells
+
 // ReadCSVFile reads a collation in the long CSV form (see ReadCSV) from the file at path. A file
 // that cannot be opened gives the *os.PathError, wrapped; every other error is a *ParseError.
 func ReadCSVFile(path string) (*Collation, error) {
@@ -88,7 +97,8 @@ func ReadCSVFile(path string) (*Collation, error) {
 //
 // The same witness-unit pair given twice with the same reading is taken once; with different
 // readings it is an error (a corrector is given a siglum of its own). A unit given two different
-// non-empty sections is an error. A file with a header and no rows is an error.
+// non-empty sections is an error. A file with a header and no rows is an error, and so is one
+// whose witnesses x units would pass MaxCells.
 func ReadCSV(r io.Reader, name string) (*Collation, error) {
 	if name == "" {
 		name = "collation CSV"
@@ -178,6 +188,9 @@ func ReadCSV(r io.Reader, name string) (*Collation, error) {
 		w := b.AddWitness(siglum)
 		if w == len(cellLine) {
 			cellLine = append(cellLine, nil)
+		}
+		if nw, nu := int64(len(cellLine)), int64(len(sectionLine)); nw*nu > maxCells {
+			return nil, fail(line, "", fmt.Errorf("%d witnesses x %d units so far pass the limit of %d cells a collation may have", nw, nu, maxCells))
 		}
 		if err := b.AddCell(w, u, reading); err != nil {
 			return nil, fail(line, ColumnReading, fmt.Errorf("%w (the first was given on line %d)", err, cellLine[w][u]))

@@ -3,6 +3,7 @@ package collation
 import (
 	"bytes"
 	"errors"
+	"fmt"
 	"os"
 	"path/filepath"
 	"reflect"
@@ -140,6 +141,28 @@ func TestReadCSVErrors(t *testing.T) {
 				}
 			}
 		})
+	}
+}
+
+// TestReadCSVCellLimit: a short file that names a few cells of a huge table is refused at the
+// row that passes the limit, before the table is built.
+func TestReadCSVCellLimit(t *testing.T) {
+	defer func(m int64) { maxCells = m }(maxCells)
+	maxCells = 12
+	var in strings.Builder
+	in.WriteString("witness,unit,reading\n")
+	for i := 1; i <= 5; i++ { // witness i at unit i: 5 rows, a 5 x 5 table
+		fmt.Fprintf(&in, "W%d,u%d,x\n", i, i)
+	}
+	_, err := ReadCSV(strings.NewReader(in.String()), "big.csv")
+	var pe *ParseError
+	// Row 4 (line 5) makes 4 x 4 = 16 cells, the first count above 12.
+	if !errors.As(err, &pe) || pe.Line != 5 || !strings.Contains(err.Error(), "4 witnesses x 4 units so far pass the limit of 12 cells") {
+		t.Errorf("got %v, want the limit reported at line 5", err)
+	}
+	maxCells = 16
+	if c, err := ReadCSV(strings.NewReader("witness,unit,reading\nW1,u1,x\nW2,u2,x\nW3,u3,x\nW4,u4,x\n"), "fits.csv"); err != nil || c.NumWitnesses()*c.NumUnits() != 16 {
+		t.Errorf("a table of exactly the limit: %v", err)
 	}
 }
 
