@@ -37,7 +37,7 @@ func TestReadCSV(t *testing.T) {
 		"\r\n" +
 		" nu , ,1.2, Ald \r\n" +
 		"\"sona, sona\",I,1.2,Ced\r\n" +
-		"\"he cwæð \"\"ja\"\"\",II,2.1,Bir\r\n" +
+		"\"he sæmde \"\"ja\"\"\",II,2.1,Bir\r\n" +
 		"nu,I,1.2,Ald\r\n" +
 		"sona,II,2.1,Ced\r\n"
 	c, err := ReadCSV(strings.NewReader(in), "demo.csv")
