@@ -164,6 +164,39 @@ func TestStartNeedsTokensOrInsecure(t *testing.T) {
 	}
 }
 
+// A start step that fails after the daemon is made (a missing tokens file, a store that cannot
+// be opened, a busy port) returns the error, without a panic, and lets go of what it opened:
+// the store can be opened again and the listener's port is free.
+func TestStartFailuresReturnErrors(t *testing.T) {
+	dir := t.TempDir()
+	store := filepath.Join(dir, "m.db")
+	if _, err := api.Start(context.Background(), api.Config{StorePath: store, GRPCAddr: "127.0.0.1:0",
+		TokensFile: filepath.Join(dir, "no-such-tokens.txt")}); err == nil || !strings.Contains(err.Error(), "no-such-tokens.txt") {
+		t.Errorf("missing tokens file: %v", err)
+	}
+	if _, err := api.Start(context.Background(), api.Config{StorePath: filepath.Join(dir, "no-such-dir", "m.db"), GRPCAddr: "127.0.0.1:0",
+		InsecureNoAuth: true}); err == nil {
+		t.Error("a store in a missing folder was accepted")
+	}
+	busy, err := net.Listen("tcp", "127.0.0.1:0")
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer busy.Close()
+	if _, err := api.Start(context.Background(), api.Config{StorePath: store, GRPCAddr: "127.0.0.1:0", HTTPAddr: busy.Addr().String(),
+		InsecureNoAuth: true}); err == nil || !strings.Contains(err.Error(), "HTTP listener") {
+		t.Errorf("busy HTTP port: %v", err)
+	}
+	// The failed start closed the store (bbolt holds a file lock while open).
+	td, err := api.Start(context.Background(), api.Config{StorePath: store, GRPCAddr: "127.0.0.1:0", InsecureNoAuth: true})
+	if err != nil {
+		t.Fatalf("starting on the store after the failed starts: %v", err)
+	}
+	if err := td.Shutdown(context.Background()); err != nil {
+		t.Error(err)
+	}
+}
+
 // selfSigned writes a certificate for 127.0.0.1 and its key, PEM, into dir.
 func selfSigned(t *testing.T, dir string) (certFile, keyFile string) {
 	key, err := ecdsa.GenerateKey(elliptic.P256(), rand.Reader)

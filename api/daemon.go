@@ -83,7 +83,7 @@ type Daemon struct {
 
 // Start opens the store, seeds the demo if asked, and starts serving. It returns once the
 // listeners are bound.
-func Start(ctx context.Context, cfg Config) (d *Daemon, err error) {
+func Start(ctx context.Context, cfg Config) (_ *Daemon, err error) {
 	log := cfg.Logger
 	if log == nil {
 		log = slog.Default()
@@ -109,7 +109,9 @@ func Start(ctx context.Context, cfg Config) (d *Daemon, err error) {
 	if cfg.TokensFile == "" && !cfg.InsecureNoAuth {
 		return nil, errors.New("no tokens file: give --tokens FILE (make tokens with `strayleaf token new`), or --insecure-no-auth for a local demo")
 	}
-	d = &Daemon{cfg: cfg, log: log, metrics: metrics.New(), errs: make(chan error, 4), done: make(chan struct{})}
+	// d is not the named result: an error return (nil, err) must not clear it under the
+	// clean-up below and the server goroutines, which read it.
+	d := &Daemon{cfg: cfg, log: log, metrics: metrics.New(), errs: make(chan error, 4), done: make(chan struct{})}
 	cleanup := func() {
 		for _, g := range []*grpc.Server{d.grpcPub, d.grpcGate} {
 			if g != nil {
