@@ -2,7 +2,6 @@ package main
 
 import (
 	"context"
-	"errors"
 	"fmt"
 	"io"
 	"os"
@@ -84,11 +83,11 @@ func (s *modelSource) flags(fs interface {
 func (s *modelSource) load() (*model.Model, string, func(), error) {
 	switch {
 	case s.bundle != "" && s.store != "":
-		return nil, "", nil, errors.New("give either --bundle or --store with --model, not both")
+		return nil, "", nil, usageError("", "give either --bundle or --store with --model, not both")
 	case s.bundle != "":
 		b, err := os.ReadFile(s.bundle)
 		if err != nil {
-			return nil, "", nil, err
+			return nil, "", nil, fmt.Errorf("reading bundle: %w", err)
 		}
 		m, err := model.Decode(b)
 		if err != nil {
@@ -97,11 +96,11 @@ func (s *modelSource) load() (*model.Model, string, func(), error) {
 		return m, s.bundle, func() {}, nil
 	case s.store != "":
 		if s.ref == "" {
-			return nil, "", nil, errors.New("--store needs --model NAME[@VERSION|@ALIAS]")
+			return nil, "", nil, usageError("", "--store needs --model NAME[@VERSION|@ALIAS]")
 		}
 		return loadFromStore(s.store, s.ref)
 	}
-	return nil, "", nil, errors.New("no model given: use --bundle FILE, or --store DB --model REF")
+	return nil, "", nil, usageError("", "no model given: use --bundle FILE, or --store DB --model REF")
 }
 
 func runPlace(ctx context.Context, args []string, stdout, stderr io.Writer) error {
@@ -123,6 +122,11 @@ func runPlace(ctx context.Context, args []string, stdout, stderr io.Writer) erro
 	}
 	if *asJSON {
 		*outFormat = "json"
+	}
+	switch *outFormat {
+	case "table", "json", "csv", "tei":
+	default:
+		return usageError("place", "--format %q: expected table, json, csv or tei", *outFormat)
 	}
 	in, err := readCollationWith(*path, *inFormat, copt)
 	if err != nil {

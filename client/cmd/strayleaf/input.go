@@ -89,10 +89,15 @@ func writeJSON(w io.Writer, v any) error {
 // usageErr is bad command-line use; the command exits with status 2.
 type usageErr struct{ where, msg string }
 
-func (e *usageErr) Error() string { return e.where + ": " + e.msg }
+func (e *usageErr) Error() string {
+	if e.where == "" {
+		return e.msg
+	}
+	return e.where + ": " + e.msg
+}
 
 // usageError reports bad command-line use; it exits with status 2. fsName is the command or
-// subcommand ("place", "strayleaf models publish").
+// subcommand ("place", "strayleaf models publish"); "" leaves naming it to the caller.
 func usageError(fsName, format string, args ...any) error {
 	return &usageErr{strings.TrimPrefix(fsName, "strayleaf "), fmt.Sprintf(format, args...) + " (see --help)"}
 }

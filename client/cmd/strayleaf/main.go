@@ -72,8 +72,12 @@ func run(ctx context.Context, args []string, stdout, stderr io.Writer) int {
 	}
 	var ue *usageErr
 	if errors.As(err, &ue) {
-		// The usage error names the (sub)command itself.
-		fmt.Fprintf(stderr, "strayleaf %v\n", err)
+		// The usage error names the (sub)command itself, unless it leaves that to us.
+		if ue.where == "" {
+			fmt.Fprintf(stderr, "strayleaf %s: %v\n", c.name, err)
+		} else {
+			fmt.Fprintf(stderr, "strayleaf %v\n", err)
+		}
 		return 2
 	}
 	fmt.Fprintf(stderr, "strayleaf %s: %v\n", c.name, err)

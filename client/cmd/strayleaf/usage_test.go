@@ -20,6 +20,8 @@ func TestUsageErrorsExit2(t *testing.T) {
 		{[]string{"models", "publish", "--store", "x.db"}, "strayleaf models publish: expected BUNDLE"},
 		{[]string{"token", "new", "--name"}, "strayleaf token new: flag needs an argument: -name"},
 		{[]string{"place"}, "strayleaf place: --witnesses is required (see --help)"},
+		{[]string{"place", "--witnesses", "no-such.csv", "--format", "xml"}, "strayleaf place: --format \"xml\": expected table, json, csv or tei"},
+		{[]string{"groups"}, "strayleaf groups: no model given: use --bundle FILE, or --store DB --model REF"},
 		{[]string{"nosuch"}, "unknown command \"nosuch\""},
 	} {
 		var out, errb bytes.Buffer
