@@ -181,7 +181,8 @@ func writePlacements(w io.Writer, format string, results []placementJSON) error 
 		fmt.Fprintln(tw, "witness\tbest group\tconfidence\tshares\tcovered\tunknown readings")
 		for _, r := range results {
 			if r.Error != "" {
-				fmt.Fprintf(tw, "%s\t-\t-\terror: %s\t\t\n", r.Witness, r.Error)
+				// A server's error has its field violations on lines of their own: one row here.
+				fmt.Fprintf(tw, "%s\t-\t-\terror: %s\t\t\n", r.Witness, strings.Join(strings.Fields(r.Error), " "))
 				continue
 			}
 			var sh []string
