@@ -10,6 +10,8 @@ import (
 	"testing"
 	"time"
 
+	"google.golang.org/grpc/codes"
+
 	"strayleaf"
 	"strayleaf/client"
 	"strayleaf/placement/collation"
@@ -133,4 +135,43 @@ func TestAliasMovedWhilePlacing(t *testing.T) {
 	stop.Store(true)
 	wg.Wait()
 	t.Logf("%d answers while the alias moved 10 times", answers.Load())
+}
+
+// A bad model name or a bad alias is refused with InvalidArgument and a field violation on the
+// field at fault.
+func TestBadNameOrAliasNamesItsField(t *testing.T) {
+	td := startDaemon(t, nil)
+	ctx := context.Background()
+	c := td.client(t, td.tokens.publish)
+	bundle := demoModelBundle(t)
+	if _, err := c.PublishModel(ctx, "demo", bundle, "", ""); err != nil {
+		t.Fatal(err)
+	}
+	field := func(err error) string {
+		e, ok := err.(*client.Error)
+		if !ok || e.Code != codes.InvalidArgument || len(e.Violations) != 1 {
+			return fmt.Sprintf("not one InvalidArgument violation: %v", err)
+		}
+		return e.Violations[0].Field
+	}
+	_, errName := c.SetAlias(ctx, "bad name", "stable", 1)
+	_, errAlias := c.SetAlias(ctx, "demo", "bad alias", 1)
+	errRemove := c.RemoveAlias(ctx, "demo", "9lives")
+	_, errPubName := c.PublishModel(ctx, "-demo", bundle, "", "")
+	_, errPubAlias := c.PublishModel(ctx, "demo", bundle, "", "bad alias")
+	for _, tc := range []struct {
+		what string
+		err  error
+		want string
+	}{
+		{"SetAlias with a bad model name", errName, "name"},
+		{"SetAlias with a bad alias", errAlias, "alias"},
+		{"RemoveAlias with a bad alias", errRemove, "alias"},
+		{"PublishModel with a bad model name", errPubName, "name"},
+		{"PublishModel with a bad alias", errPubAlias, "alias"},
+	} {
+		if got := field(tc.err); got != tc.want {
+			t.Errorf("%s: field %q; want %q", tc.what, got, tc.want)
+		}
+	}
 }

@@ -53,6 +53,10 @@ func parseRef(ref string) (refSpec, error) {
 // MaxNameLength bounds model and alias names.
 const MaxNameLength = 64
 
+// CheckModelName reports whether name is a valid model name (an error wrapping ErrInvalidName
+// if not), so that a caller can tell which of several names it was given is at fault.
+func CheckModelName(name string) error { return checkModelName(name) }
+
 // checkModelName accepts 1 to 64 characters from [A-Za-z0-9._-], starting with a letter or a
 // digit.
 func checkModelName(name string) error {

@@ -116,7 +116,7 @@ func (s *Server) PublishModel(ctx context.Context, req *pb.PublishModelRequest) 
 	by := callerName(ctx)
 	r, err := s.store.Publish(req.GetName(), req.GetBundle(), modelstore.PublishMeta{By: by, Note: req.GetNote(), Alias: req.GetAlias()})
 	if err != nil {
-		return nil, storeProblem(err, "name").status()
+		return nil, storeProblem(err, nameOrAlias(req.GetName())).status()
 	}
 	info, err := s.store.Info(r.String())
 	if err != nil {
@@ -126,6 +126,15 @@ func (s *Server) PublishModel(ctx context.Context, req *pb.PublishModelRequest) 
 	return &pb.PublishModelResponse{Model: r.String(), Version: int32(r.Version), VersionInfo: versionInfoProto(info)}, nil
 }
 
+// nameOrAlias is the request field at fault when a call naming a model and an alias is refused
+// for a bad name: the model name if it is not valid, else the alias.
+func nameOrAlias(name string) string {
+	if modelstore.CheckModelName(name) != nil {
+		return "name"
+	}
+	return "alias"
+}
+
 // SetAlias points an alias at a version.
 func (s *Server) SetAlias(ctx context.Context, req *pb.SetAliasRequest) (*pb.SetAliasResponse, error) {
 	if req.GetVersion() < 1 {
@@ -133,7 +142,7 @@ func (s *Server) SetAlias(ctx context.Context, req *pb.SetAliasRequest) (*pb.Set
 	}
 	by := callerName(ctx)
 	if err := s.store.SetAlias(req.GetName(), req.GetAlias(), int(req.GetVersion()), by); err != nil {
-		return nil, storeProblem(err, "alias").status()
+		return nil, storeProblem(err, nameOrAlias(req.GetName())).status()
 	}
 	r := modelstore.Ref{Name: req.GetName(), Version: int(req.GetVersion())}
 	s.log.Info("alias set", "alias", req.GetName()+"@"+req.GetAlias(), "model", r.String(), "by", by)
@@ -144,7 +153,7 @@ func (s *Server) SetAlias(ctx context.Context, req *pb.SetAliasRequest) (*pb.Set
 func (s *Server) RemoveAlias(ctx context.Context, req *pb.RemoveAliasRequest) (*pb.RemoveAliasResponse, error) {
 	by := callerName(ctx)
 	if err := s.store.RemoveAlias(req.GetName(), req.GetAlias(), by); err != nil {
-		return nil, storeProblem(err, "alias").status()
+		return nil, storeProblem(err, nameOrAlias(req.GetName())).status()
 	}
 	s.log.Info("alias removed", "alias", req.GetName()+"@"+req.GetAlias(), "by", by)
 	return &pb.RemoveAliasResponse{}, nil
