@@ -85,7 +85,7 @@ type PlaceRequest struct {
 	Witness  string            `protobuf:"bytes,2,opt,name=witness,proto3" json:"witness,omitempty"`
 	Readings []*WitnessReading `protobuf:"bytes,3,rep,name=readings,proto3" json:"readings,omitempty"`
 	// nearest is how many nearest training witnesses by agreement the answer names (0: none; they
-	// cost a comparison with every training witness).
+	// cost a comparison with every training witness); at most the model's training witnesses.
 	Nearest int32 `protobuf:"varint,4,opt,name=nearest,proto3" json:"nearest,omitempty"`
 	// by_section also places each section's readings separately and reads a change of exemplar
 	// (block mixture) from them; the model's units must carry sections.
