@@ -131,8 +131,13 @@ func TestBadInputAnswers(t *testing.T) {
 
 	// Malformed REST bodies.
 	for _, body := range []string{`{"witness": "F", "readings": [`, `{"witness": "F", "colour": "red"}`, `{"witness": 3}`} {
-		if resp := td.rest(t, "POST", "/v1/models/demo/placements", td.tokens.place, body); resp.status != 400 {
+		resp := td.rest(t, "POST", "/v1/models/demo/placements", td.tokens.place, body)
+		if resp.status != 400 {
 			t.Errorf("body %s: %d %s; want 400", body, resp.status, resp.body)
+		}
+		// The answer says what was expected, not only what the JSON decoder tripped on.
+		if !strings.Contains(string(resp.body), "not the expected JSON object") {
+			t.Errorf("body %s: answer %s does not say a JSON object was expected", body, resp.body)
 		}
 	}
 

@@ -5,7 +5,9 @@ package gateway
 
 import (
 	"context"
+	"errors"
 	"fmt"
+	"io"
 	"net/http"
 	"strings"
 
@@ -45,7 +47,7 @@ func JSON() *runtime.JSONPb {
 // New returns the HTTP handler of the daemon, calling the gRPC services through conn.
 func New(ctx context.Context, conn *grpc.ClientConn, opt Options) (http.Handler, error) {
 	mux := runtime.NewServeMux(
-		runtime.WithMarshalerOption(runtime.MIMEWildcard, JSON()),
+		runtime.WithMarshalerOption(runtime.MIMEWildcard, bodyJSON{JSON()}),
 		runtime.WithErrorHandler(errorHandler),
 	)
 	if err := pb.RegisterPlacementServiceHandler(ctx, mux, conn); err != nil {
@@ -133,4 +135,19 @@ type challengeWriter struct{ http.ResponseWriter }
 func (w challengeWriter) WriteHeader(code int) {
 	w.Header().Set("WWW-Authenticate", `Bearer realm="strayleaf"`)
 	w.ResponseWriter.WriteHeader(code)
+}
+
+// bodyJSON is the gateway's JSON marshaler with request-body errors that say what was expected:
+// the JSON decoder alone answers a bad body with a bare "unexpected EOF" or "invalid value".
+type bodyJSON struct{ *runtime.JSONPb }
+
+func (j bodyJSON) NewDecoder(r io.Reader) runtime.Decoder {
+	d := j.JSONPb.NewDecoder(r)
+	return runtime.DecoderFunc(func(v interface{}) error {
+		err := d.Decode(v)
+		if err != nil && !errors.Is(err, io.EOF) {
+			return fmt.Errorf("request body is not the expected JSON object (see /openapi.json for the fields; names are snake_case): %w", err)
+		}
+		return err
+	})
 }
