@@ -9,6 +9,10 @@
 // J. Chemometrics 11; from memory): callers that solve many problems sharing precomputed Gram
 // matrices pay O(k^2) per step instead of O(m k), and nothing is allocated per call.
 //
+// Solver.SolveGramFrom runs the same method from a given feasible starting point, whose support
+// is the first passive set: a caller with a good guess of the solution's support (a nearby
+// problem's solution) skips most of the outer iterations and gets the same minimiser.
+//
 // # The method
 //
 // Write w = A^T (b - A x) = c - G x for the negative gradient of f(x) = ||A x - b||^2 / 2. The
@@ -109,15 +113,54 @@ func newActiveSet(k int) activeSet {
 	}
 }
 
-// run carries out the active-set method for k = len(x) unknowns; s.norm must be set.
+// run carries out the active-set method for k = len(x) unknowns from x = 0, P empty; s.norm
+// must be set.
 func (s *activeSet) run(ls passiveLS, x []float64, maxIter int) error {
-	k := len(x)
-	for i := range k {
+	for i := range x {
 		x[i] = 0
 		s.inP[i] = false
 		s.blocked[i] = false
 	}
+	return s.iterate(ls, x, 0, maxIter)
+}
+
+// runFrom carries out the active-set method from the feasible point x (x >= 0, finite): the
+// passive set starts as {i : x_i > 0}, less the variables whose columns are dependent on those
+// before them (taken in index order); the least-squares solution z on that set is computed and
+// the inner loop steps from x towards z until z > 0 on what is left of P, as after an entering
+// step. From there x is the least-squares point on P with x_P > 0, the state the outer loop
+// keeps, so the usual iteration continues and ends at the same KKT point. s.norm must be set.
+func (s *activeSet) runFrom(ls passiveLS, x []float64, maxIter int) error {
 	p := 0
+	for i := range x {
+		s.inP[i] = false
+		s.blocked[i] = false
+		if !(x[i] > 0) || s.norm[i] == 0 {
+			x[i] = 0
+			continue
+		}
+		s.order[p] = i
+		if !ls.grow(s.order, p) {
+			x[i] = 0
+			continue
+		}
+		s.inP[i] = true
+		p++
+	}
+	if p > 0 {
+		ls.solve(s.order, p, s.z)
+		var err error
+		if p, err = s.stepBack(ls, x, p); err != nil {
+			return err
+		}
+	}
+	return s.iterate(ls, x, p, maxIter)
+}
+
+// iterate is the outer loop of the active-set method, entered with p passive variables at
+// positions 0..p-1 of s.order, x their least-squares solution (positive) and zero elsewhere.
+func (s *activeSet) iterate(ls passiveLS, x []float64, p, maxIter int) error {
+	k := len(x)
 	for it := 0; ; it++ {
 		ls.dual(x, s.order, p, s.w, s.tol)
 		// Choose the entering variable.
@@ -155,52 +198,61 @@ func (s *activeSet) run(ls passiveLS, x []float64, maxIter int) error {
 		for i := range k {
 			s.blocked[i] = false
 		}
-		// Inner loop: step back towards feasibility until z > 0 on P. Each pass moves at least
-		// one variable to Z, so it ends within p passes.
-		for {
-			feasible := true
-			for a := range p {
-				if !(s.z[a] > 0) {
-					feasible = false
-					break
-				}
-			}
-			if feasible {
-				for a := range p {
-					x[s.order[a]] = s.z[a]
-				}
+		var err error
+		if p, err = s.stepBack(ls, x, p); err != nil {
+			return err
+		}
+	}
+}
+
+// stepBack is the inner loop: with s.z the least-squares solution on positions 0..p-1 and x
+// feasible, it steps from x towards z as far as feasibility allows until z > 0 on P, then sets
+// x = z on P, and returns the new p. Each pass moves at least one variable to Z, so it ends
+// within p passes.
+func (s *activeSet) stepBack(ls passiveLS, x []float64, p int) (int, error) {
+	for {
+		feasible := true
+		for a := range p {
+			if !(s.z[a] > 0) {
+				feasible = false
 				break
 			}
-			alpha, q := math.Inf(1), -1
-			for a := range p {
-				if s.z[a] <= 0 {
-					xa := x[s.order[a]]
-					if t := xa / (xa - s.z[a]); t < alpha {
-						alpha, q = t, a
-					}
-				}
-			}
-			if q < 0 {
-				return errors.New("nnls: numerical breakdown (subproblem solution is not a number)")
-			}
-			for a := range p {
-				i := s.order[a]
-				x[i] += alpha * (s.z[a] - x[i])
-			}
-			x[s.order[q]] = 0
-			p = s.compact(x, p)
-			for {
-				bad := ls.rebuild(s.order, p)
-				if bad < 0 {
-					break
-				}
-				// Rounding made a column that was independent look dependent on a subset of
-				// its former companions: send it back to Z.
-				x[s.order[bad]] = 0
-				p = s.compact(x, p)
-			}
-			ls.solve(s.order, p, s.z)
 		}
+		if feasible {
+			for a := range p {
+				x[s.order[a]] = s.z[a]
+			}
+			return p, nil
+		}
+		alpha, q := math.Inf(1), -1
+		for a := range p {
+			if s.z[a] <= 0 {
+				xa := x[s.order[a]]
+				if t := xa / (xa - s.z[a]); t < alpha {
+					alpha, q = t, a
+				}
+			}
+		}
+		if q < 0 {
+			return p, errors.New("nnls: numerical breakdown (subproblem solution is not a number)")
+		}
+		for a := range p {
+			i := s.order[a]
+			x[i] += alpha * (s.z[a] - x[i])
+		}
+		x[s.order[q]] = 0
+		p = s.compact(x, p)
+		for {
+			bad := ls.rebuild(s.order, p)
+			if bad < 0 {
+				break
+			}
+			// Rounding made a column that was independent look dependent on a subset of
+			// its former companions: send it back to Z.
+			x[s.order[bad]] = 0
+			p = s.compact(x, p)
+		}
+		ls.solve(s.order, p, s.z)
 	}
 }
 
@@ -449,27 +501,64 @@ func (s *Solver) SetMaxIter(n int) { s.maxIter = n }
 // (ErrNoConvergence). A G that is indefinite in some other way is not detected; its
 // negative-curvature directions are refused as dependent columns.
 func (s *Solver) SolveGram(G, c, x []float64) error {
+	maxIter, err := s.prepare(G, c, x)
+	if err != nil {
+		return err
+	}
+	err = s.as.run(&s.ls, x, maxIter)
+	s.ls.g, s.ls.c = nil, nil
+	return err
+}
+
+// SolveGramFrom solves the problem of SolveGram starting from the point given in x instead of
+// x = 0: on entry x must be finite and non-negative, and its support {i : x_i > 0} is the first
+// passive set (Bro & De Jong 1997 start the method from a feasible passive set; from memory).
+// The unconstrained least-squares problem is solved on that set (less variables whose columns
+// are dependent on those of lower index), the inner loop steps back from x towards feasibility,
+// and the usual outer loop follows, so the result satisfies the same KKT conditions as
+// SolveGram's. When G is positive definite on the support of the solution, the minimiser is
+// unique and both return it, up to rounding; the start only changes how many steps it takes:
+// from the support of the solution itself, none but one factorisation and one check. It does
+// not allocate, and fails as SolveGram does, or for a negative or non-finite start.
+func (s *Solver) SolveGramFrom(G, c, x []float64) error {
+	maxIter, err := s.prepare(G, c, x)
+	if err != nil {
+		return err
+	}
+	for i, v := range x {
+		if !(v >= 0) || math.IsInf(v, 0) {
+			s.ls.g, s.ls.c = nil, nil
+			return fmt.Errorf("nnls: starting point x[%d] is %v; it must be finite and non-negative", i, v)
+		}
+	}
+	err = s.as.runFrom(&s.ls, x, maxIter)
+	s.ls.g, s.ls.c = nil, nil
+	return err
+}
+
+// prepare checks the problem, sets up the Gram-form subproblem and returns the iteration limit.
+func (s *Solver) prepare(G, c, x []float64) (int, error) {
 	k := len(c)
 	switch {
 	case k == 0:
-		return errors.New("nnls: no unknowns (c is empty)")
+		return 0, errors.New("nnls: no unknowns (c is empty)")
 	case k > s.Cap():
-		return fmt.Errorf("nnls: %d unknowns; this Solver was made for at most %d", k, s.Cap())
+		return 0, fmt.Errorf("nnls: %d unknowns; this Solver was made for at most %d", k, s.Cap())
 	case len(G) != k*k:
-		return fmt.Errorf("nnls: G has %d entries; expected %d x %d = %d", len(G), k, k, k*k)
+		return 0, fmt.Errorf("nnls: G has %d entries; expected %d x %d = %d", len(G), k, k, k*k)
 	case len(x) != k:
-		return fmt.Errorf("nnls: x has length %d; expected %d", len(x), k)
+		return 0, fmt.Errorf("nnls: x has length %d; expected %d", len(x), k)
 	}
 	norm := s.as.norm[:k]
 	beta := 0.0
 	for i := range k {
 		d := G[i*k+i]
 		if !(d >= 0) || math.IsInf(d, 0) {
-			return fmt.Errorf("nnls: G[%d][%d] is %v; a Gram matrix has a finite non-negative diagonal", i, i, d)
+			return 0, fmt.Errorf("nnls: G[%d][%d] is %v; a Gram matrix has a finite non-negative diagonal", i, i, d)
 		}
 		ci := c[i]
 		if math.IsNaN(ci) || math.IsInf(ci, 0) {
-			return fmt.Errorf("nnls: c[%d] is %v", i, ci)
+			return 0, fmt.Errorf("nnls: c[%d] is %v", i, ci)
 		}
 		norm[i] = math.Sqrt(d)
 		if d > 0 {
@@ -480,10 +569,10 @@ func (s *Solver) SolveGram(G, c, x []float64) error {
 		for j := i + 1; j < k; j++ {
 			a, b := G[i*k+j], G[j*k+i]
 			if math.IsNaN(a) || math.IsInf(a, 0) || math.IsNaN(b) || math.IsInf(b, 0) {
-				return fmt.Errorf("nnls: G[%d][%d] or G[%d][%d] is not finite (%v, %v)", i, j, j, i, a, b)
+				return 0, fmt.Errorf("nnls: G[%d][%d] or G[%d][%d] is not finite (%v, %v)", i, j, j, i, a, b)
 			}
 			if math.Abs(a-b) > 1e-10*norm[i]*norm[j] {
-				return fmt.Errorf("nnls: G is not symmetric: G[%d][%d] = %v, G[%d][%d] = %v", i, j, a, j, i, b)
+				return 0, fmt.Errorf("nnls: G is not symmetric: G[%d][%d] = %v, G[%d][%d] = %v", i, j, a, j, i, b)
 			}
 		}
 	}
@@ -492,9 +581,7 @@ func (s *Solver) SolveGram(G, c, x []float64) error {
 	if maxIter <= 0 {
 		maxIter = DefaultMaxIter(k)
 	}
-	err := s.as.run(&s.ls, x, maxIter)
-	s.ls.g, s.ls.c = nil, nil
-	return err
+	return maxIter, nil
 }
 
 // gramLS is the passive-set subproblem in normal-equations form: the Cholesky factor L of G

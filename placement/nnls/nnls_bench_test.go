@@ -79,3 +79,51 @@ func BenchmarkSolve(b *testing.B) {
 		})
 	}
 }
+
+// BenchmarkSolveGramFrom times SolveGramFrom on the problems of BenchmarkSolveGram, started
+// from a perturbed problem's solution (b with extra noise of the same size, as a resample's
+// neighbour would give), beside SolveGram on the same problem.
+func BenchmarkSolveGramFrom(b *testing.B) {
+	for _, k := range []int{12, 50} {
+		for _, act := range []struct {
+			name string
+			n    int
+		}{{"sparse", k / 4}, {"dense", k}} {
+			rng := rand.New(rand.NewPCG(uint64(k), uint64(act.n)))
+			A, rhs := mixtureProblem(rng, 3*k*10, k, act.n)
+			G, c := gram(A, rhs)
+			near := make([]float64, len(rhs))
+			for i := range near {
+				near[i] = rhs[i] + 0.1*rng.NormFloat64()
+			}
+			_, c0 := gram(A, near)
+			s := NewSolver(k)
+			x0 := make([]float64, k)
+			if err := s.SolveGram(G, c0, x0); err != nil {
+				b.Fatal(err)
+			}
+			x := make([]float64, k)
+			b.Run(fmt.Sprintf("k=%d/%s/cold", k, act.name), func(b *testing.B) {
+				b.ReportAllocs()
+				cpu := benchcpu.Start()
+				for b.Loop() {
+					if err := s.SolveGram(G, c, x); err != nil {
+						b.Fatal(err)
+					}
+				}
+				cpu.Report(b)
+			})
+			b.Run(fmt.Sprintf("k=%d/%s/warm", k, act.name), func(b *testing.B) {
+				b.ReportAllocs()
+				cpu := benchcpu.Start()
+				for b.Loop() {
+					copy(x, x0)
+					if err := s.SolveGramFrom(G, c, x); err != nil {
+						b.Fatal(err)
+					}
+				}
+				cpu.Report(b)
+			})
+		}
+	}
+}

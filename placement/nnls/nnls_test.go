@@ -435,3 +435,169 @@ func TestObjective(t *testing.T) {
 		}
 	}
 }
+
+// fullRank reports whether A has full column rank with a condition number below 1e6, from its
+// singular values.
+func fullRank(A *mat.Dense) bool {
+	m, k := A.Dims()
+	if m < k {
+		return false
+	}
+	var svd mat.SVD
+	if !svd.Factorize(A, mat.SVDNone) {
+		return false
+	}
+	sv := svd.Values(nil)
+	return sv[len(sv)-1] > 1e-6*sv[0]
+}
+
+// TestSolveGramFromMatchesSolveGram checks SolveGramFrom from several starting points on the
+// seeded random problems (degenerate ones included): random supports with random values, every
+// variable, the support of the solution, and the solution's support with a few variables
+// flipped. Every result must satisfy the KKT conditions; where A has full column rank the NNLS
+// minimiser is unique (f is strictly convex), so every result must equal SolveGram's.
+func TestSolveGramFromMatchesSolveGram(t *testing.T) {
+	rng := rand.New(rand.NewPCG(21, 22))
+	s := NewSolver(50)
+	unique, compared := 0, 0
+	for _, p := range randomProblems(rng, 240) {
+		G, c := gram(p.A, p.b)
+		k := len(c)
+		want := make([]float64, k)
+		if err := s.SolveGram(G, c, want); err != nil {
+			t.Fatalf("%s: SolveGram: %v", p.name, err)
+		}
+		full := fullRank(p.A)
+		if full {
+			unique++
+		}
+		scale := 0.0
+		for _, v := range want {
+			scale = math.Max(scale, v)
+		}
+		starts := map[string]func(x []float64){
+			"random": func(x []float64) {
+				for j := range x {
+					if rng.IntN(2) == 0 {
+						x[j] = rng.Float64() * 10
+					}
+				}
+			},
+			"all": func(x []float64) {
+				for j := range x {
+					x[j] = 1
+				}
+			},
+			"solution": func(x []float64) { copy(x, want) },
+			"flipped": func(x []float64) {
+				copy(x, want)
+				for range 1 + k/8 {
+					j := rng.IntN(k)
+					if x[j] > 0 {
+						x[j] = 0
+					} else {
+						x[j] = rng.Float64()
+					}
+				}
+			},
+		}
+		for _, name := range []string{"random", "all", "solution", "flipped"} {
+			x := make([]float64, k)
+			starts[name](x)
+			label := p.name + " from " + name
+			if err := s.SolveGramFrom(G, c, x); err != nil {
+				t.Fatalf("%s: SolveGramFrom: %v", label, err)
+			}
+			checkKKT(t, label, p.A, p.b, x)
+			if !full {
+				continue
+			}
+			compared++
+			for j := range x {
+				if math.Abs(x[j]-want[j]) > 1e-10*math.Max(1, scale) {
+					t.Errorf("%s: x[%d] = %v, SolveGram %v (difference %v)", label, j, x[j], want[j], x[j]-want[j])
+				}
+			}
+		}
+	}
+	if unique < 50 || compared < 200 {
+		t.Errorf("only %d full-rank problems (%d comparisons); the test needs more", unique, compared)
+	}
+}
+
+// TestSolveGramFromSkipsIterations: started from the solution's support, SolveGramFrom needs no
+// entering step, so it succeeds under an iteration limit that stops SolveGram (all five
+// variables of the TestIterationLimit problem are positive at the solution).
+func TestSolveGramFromSkipsIterations(t *testing.T) {
+	rng := rand.New(rand.NewPCG(5, 6))
+	A := mat.NewDense(10, 5, nil)
+	for i := range 10 {
+		for j := range 5 {
+			A.Set(i, j, rng.Float64())
+		}
+		A.Set(i, i%5, A.At(i, i%5)+3)
+	}
+	b := fitted(A, []float64{1, 1, 1, 1, 1})
+	G, c := gram(A, b)
+	s := NewSolver(5)
+	s.SetMaxIter(1)
+	x := make([]float64, 5)
+	if err := s.SolveGram(G, c, x); !errors.Is(err, ErrNoConvergence) {
+		t.Fatalf("SolveGram with a limit of 1 iteration: err = %v, want ErrNoConvergence", err)
+	}
+	x = []float64{0.5, 2, 0.1, 3, 1e-3}
+	if err := s.SolveGramFrom(G, c, x); err != nil {
+		t.Fatalf("SolveGramFrom from the solution's support: %v", err)
+	}
+	for j, v := range x {
+		if math.Abs(v-1) > 1e-10 {
+			t.Errorf("x[%d] = %v, want 1", j, v)
+		}
+	}
+}
+
+func TestSolveGramFromErrors(t *testing.T) {
+	s := NewSolver(2)
+	G, c := []float64{1, 0, 0, 1}, []float64{1, 1}
+	for _, x := range [][]float64{{-1, 0}, {math.NaN(), 1}, {math.Inf(1), 0}, {1}} {
+		if err := s.SolveGramFrom(G, c, x); err == nil {
+			t.Errorf("SolveGramFrom from %v did not fail", x)
+		}
+	}
+	if err := s.SolveGramFrom([]float64{1, 0.5, 0, 1}, c, []float64{1, 1}); err == nil {
+		t.Error("SolveGramFrom with an asymmetric G did not fail")
+	}
+	// After a refused start the Solver still works.
+	x := []float64{0, 3}
+	if err := s.SolveGramFrom(G, c, x); err != nil || x[0] != 1 || x[1] != 1 {
+		t.Errorf("G = I, c = (1, 1): x = %v, err %v; want (1, 1)", x, err)
+	}
+}
+
+func TestSolveGramFromAllocatesNothing(t *testing.T) {
+	rng := rand.New(rand.NewPCG(7, 8))
+	s := NewSolver(50)
+	type gc struct{ G, c, x0, x []float64 }
+	var in []gc
+	for _, p := range randomProblems(rng, 12) {
+		G, c := gram(p.A, p.b)
+		x0 := make([]float64, len(c))
+		for j := range x0 {
+			if rng.IntN(2) == 0 {
+				x0[j] = rng.Float64()
+			}
+		}
+		in = append(in, gc{G, c, x0, make([]float64, len(c))})
+	}
+	allocs := testing.AllocsPerRun(5, func() {
+		for _, v := range in {
+			copy(v.x, v.x0)
+			if err := s.SolveGramFrom(v.G, v.c, v.x); err != nil {
+				t.Fatal(err)
+			}
+		}
+	})
+	if allocs != 0 {
+		t.Errorf("SolveGramFrom allocated %v times per run, want 0", allocs)
+	}
+}
