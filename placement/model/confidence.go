@@ -288,13 +288,9 @@ type bootScratch struct {
 // always gets the same value.
 //
 // Each resample is solved first from the passive set P = {j : h_j > 0} of the full fit h (see
-// warmSolve), accepted when the KKT conditions hold there with a margin. Otherwise it is solved
-// by the active-set method: started from the full fit h (nnls.Solver.SolveGramFrom), whose
-// support is near the resample's so that few steps remain, when the resample's G is
-// numerically positive definite (see fullRank) and its minimiser therefore unique; from x = 0
-// (nnls.Solver.SolveGram) when it is not, since then the minimiser found depends on the path
-// (a witness of few units), and the cold path's choice is the one the stability feature has
-// always been read from. Either way the answer is a resample's NNLS minimiser.
+// warmSolve), which a resample usually keeps; only when the KKT conditions fail there is it
+// solved from scratch by the active-set method. Either way the answer is the resample's NNLS
+// minimiser.
 func (m *Model) stability(g *guide, obs []placement.Observation, best int, h []float64, s *bootScratch) float64 {
 	k := g.k
 	tri := k * (k + 1) / 2
@@ -402,14 +398,7 @@ func (m *Model) stability(g *guide, obs []placement.Observation, best int, h []f
 			}
 		}
 		if !s.warmSolve(k) {
-			var err error
-			if s.fullRank(k) {
-				copy(s.h, h)
-				err = s.solver.SolveGramFrom(s.g, s.c, s.h)
-			} else {
-				err = s.solver.SolveGram(s.g, s.c, s.h)
-			}
-			if err != nil {
+			if err := s.solver.SolveGram(s.g, s.c, s.h); err != nil {
 				continue
 			}
 		}
@@ -508,40 +497,6 @@ func (s *bootScratch) warmSolve(k int) bool {
 	clear(s.h)
 	for a, j := range P {
 		s.h[j] = z[a]
-	}
-	return true
-}
-
-// fullRankTol is the smallest Cholesky pivot of the resample's G, relative to G_jj (the squared
-// sine of the angle between column j and the span of the columns before it), for fullRank to
-// call G positive definite; well above the solver's own dependence test (1e-12), so that the
-// minimiser is not only unique but well enough determined for the warm and cold active-set
-// paths to agree to rounding.
-const fullRankTol = 1e-8
-
-// fullRank reports whether the resample's G = s.g (k x k) is numerically positive definite:
-// every pivot d_j of its Cholesky factorisation G = L L^T exceeds fullRankTol G_jj. Then f(x) =
-// x^T G x - 2 c^T x is strictly convex and its minimiser over x >= 0 unique. It uses s.l as
-// workspace, which warmSolve is done with.
-func (s *bootScratch) fullRank(k int) bool {
-	G, L := s.g, s.l
-	for j := range k {
-		lj := L[j*k : j*k+j+1]
-		d := G[j*k+j]
-		for b := 0; b < j; b++ {
-			lb := L[b*k : b*k+b+1]
-			v := G[j*k+b]
-			for t := 0; t < b; t++ {
-				v -= lj[t] * lb[t]
-			}
-			v /= lb[b]
-			lj[b] = v
-			d -= v * v
-		}
-		if !(d > fullRankTol*G[j*k+j]) {
-			return false
-		}
-		lj[j] = math.Sqrt(d)
 	}
 	return true
 }

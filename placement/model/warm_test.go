@@ -85,37 +85,3 @@ func TestWarmSolveMatchesActiveSet(t *testing.T) {
 		t.Errorf("warm start accepted %d and refused %d of the problems; expected both often", accepted, refused)
 	}
 }
-
-// fullRank accepts G = A^T A for A with independent columns and refuses it when A has fewer rows
-// than columns or a column repeated (G singular in exact arithmetic).
-func TestFullRankGram(t *testing.T) {
-	rng := rand.New(rand.NewPCG(13, 17))
-	const k = 6
-	for trial := 0; trial < 300; trial++ {
-		rows := 2 * k
-		kind := trial % 3
-		if kind == 1 {
-			rows = k - 1
-		}
-		A := make([]float64, rows*k)
-		for i := range A {
-			A[i] = rng.Float64()
-		}
-		if kind == 2 {
-			for i := 0; i < rows; i++ {
-				A[i*k+4] = A[i*k+1]
-			}
-		}
-		s := &bootScratch{g: make([]float64, k*k), l: make([]float64, k*k)}
-		for i := 0; i < rows; i++ {
-			for p := 0; p < k; p++ {
-				for q := 0; q < k; q++ {
-					s.g[p*k+q] += A[i*k+p] * A[i*k+q]
-				}
-			}
-		}
-		if got, want := s.fullRank(k), kind == 0; got != want {
-			t.Fatalf("trial %d (kind %d): fullRank = %v, want %v", trial, kind, got, want)
-		}
-	}
-}
