@@ -362,17 +362,11 @@ func refit(m *pb.Model, full *model.Model, prep *prepare.Prepared, opt model.Tra
 	var W, H *mat.Dense
 	iterations := copt.WarmSteps
 	if copt.FreshRefits {
-		nopt := nmf.DefaultOptions(k)
-		nopt.Seed = opt.Seed + uint64(f) + 1
-		nopt.Restarts = copt.FoldRestarts
-		if opt.MaxIterations > 0 {
-			nopt.MaxIterations = opt.MaxIterations
-		}
+		fopt := opt
+		fopt.Groups, fopt.Seed, fopt.Restarts, fopt.Progress = k, opt.Seed+uint64(f)+1, copt.FoldRestarts, nil
+		nopt := fopt.NMFOptions()
 		if copt.FoldMaxIterations > 0 {
 			nopt.MaxIterations = copt.FoldMaxIterations
-		}
-		if opt.Tolerance > 0 {
-			nopt.Tolerance = opt.Tolerance
 		}
 		if k > min(nr, len(cols)) {
 			nopt.Init = nmf.InitRandom

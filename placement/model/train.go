@@ -30,6 +30,24 @@ type TrainOptions struct {
 	Progress func(done, total int)
 }
 
+// NMFOptions returns the NMF settings of a training run: nmf.DefaultOptions(Groups) with the
+// seed, and the restarts, iteration cap and tolerance where they are set.
+func (opt TrainOptions) NMFOptions() nmf.Options {
+	nopt := nmf.DefaultOptions(opt.Groups)
+	nopt.Seed = opt.Seed
+	if opt.Restarts > 0 {
+		nopt.Restarts = opt.Restarts
+	}
+	if opt.MaxIterations > 0 {
+		nopt.MaxIterations = opt.MaxIterations
+	}
+	if opt.Tolerance > 0 {
+		nopt.Tolerance = opt.Tolerance
+	}
+	nopt.Progress = opt.Progress
+	return nopt
+}
+
 // Leading and profile list lengths in the group summaries.
 const (
 	leadingWitnesses = 5
@@ -61,18 +79,7 @@ func Train(c *collation.Collation, opt TrainOptions) (*pb.Model, *prepare.Prepar
 	if opt.Groups > len(p.Train) {
 		return nil, nil, fmt.Errorf("groups is %d but only %d witnesses are left to train on", opt.Groups, len(p.Train))
 	}
-	nopt := nmf.DefaultOptions(opt.Groups)
-	nopt.Seed = opt.Seed
-	if opt.Restarts > 0 {
-		nopt.Restarts = opt.Restarts
-	}
-	if opt.MaxIterations > 0 {
-		nopt.MaxIterations = opt.MaxIterations
-	}
-	if opt.Tolerance > 0 {
-		nopt.Tolerance = opt.Tolerance
-	}
-	nopt.Progress = opt.Progress
+	nopt := opt.NMFOptions()
 	res, err := nmf.Factorize(p.X, p.M, nopt)
 	if err != nil {
 		return nil, nil, fmt.Errorf("learning groups: %w", err)
