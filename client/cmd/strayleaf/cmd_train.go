@@ -23,7 +23,7 @@ type trainJSON struct {
 	BundleSHA256      string                  `json:"bundle_sha256"`
 	Collation         string                  `json:"collation"`
 	CollationSHA256   string                  `json:"collation_sha256"`
-	Groups            []groupJSON             `json:"groups"`
+	Groups            []groupDesc             `json:"groups"`
 	WitnessGroups     map[string]string       `json:"witness_groups"`
 	SetAside          []string                `json:"set_aside"`
 	SetAsideDetail    *setAsideJSON           `json:"set_aside_detail"`
@@ -34,24 +34,6 @@ type trainJSON struct {
 	Restarts          int32                   `json:"restarts"`
 	Calibration       *calibrationSummaryJSON `json:"calibration,omitempty"`
 	TrainingWitnesses int                     `json:"training_witnesses"`
-}
-
-type groupJSON struct {
-	Group   string        `json:"group"`
-	Size    int32         `json:"size"`
-	Leading []shareJSON   `json:"leading_witnesses"`
-	Profile []profileJSON `json:"profile_readings"`
-}
-
-type shareJSON struct {
-	Witness string  `json:"witness"`
-	Share   float64 `json:"share"`
-}
-
-type profileJSON struct {
-	Unit          string  `json:"unit"`
-	Reading       string  `json:"reading"`
-	Concentration float64 `json:"concentration"`
 }
 
 type calibrationSummaryJSON struct {
@@ -205,16 +187,7 @@ func trainReport(m *pb.Model, src *collationSource) *trainJSON {
 		sa.UninformativeUnits = append(sa.UninformativeUnits, prepare.UninformativeUnit{Unit: u.Unit, Kept: int(u.KeptReadings), Reason: u.Reason})
 	}
 	rep.SetAsideDetail = sa
-	for _, g := range m.Groups {
-		gj := groupJSON{Group: g.Id, Size: g.Size, Leading: []shareJSON{}, Profile: []profileJSON{}}
-		for _, l := range g.LeadingWitnesses {
-			gj.Leading = append(gj.Leading, shareJSON{l.Witness, l.Share})
-		}
-		for _, p := range g.ProfileReadings {
-			gj.Profile = append(gj.Profile, profileJSON{p.Unit, p.Reading, p.Concentration})
-		}
-		rep.Groups = append(rep.Groups, gj)
-	}
+	rep.Groups = groupsOf(m, "").Groups
 	if c := m.Calibration; c != nil && c.Method != "" {
 		rep.Calibration = &calibrationSummaryJSON{Method: c.Method, ECE: c.ExpectedCalibrationError, N: c.Samples}
 	}
