@@ -52,25 +52,28 @@ func (c codec) Marshal(v any) (mem.BufferSlice, error) {
 func (c codec) Unmarshal(data mem.BufferSlice, v any) error {
 	switch m := v.(type) {
 	case *pb.PlaceRequest:
-		buf := data.Materialize()
-		var r Request
-		if decodeRequest(buf, &r) == nil {
+		return decodeOr(data, m, func(r *Request) {
 			m.Model, m.Witness, m.Readings, m.Nearest, m.BySection = r.Model, r.Witness, r.Readings, r.Nearest, r.BySection
-			return nil
-		}
-		m.Reset()
-		return proto.Unmarshal(buf, m)
+		})
 	case *pb.PlaceStreamRequest:
-		buf := data.Materialize()
-		var r Request
-		if decodeRequest(buf, &r) == nil {
+		return decodeOr(data, m, func(r *Request) {
 			m.Model, m.Witness, m.Readings, m.Nearest, m.BySection = r.Model, r.Witness, r.Readings, r.Nearest, r.BySection
-			return nil
-		}
-		m.Reset()
-		return proto.Unmarshal(buf, m)
+		})
 	}
 	return c.std.Unmarshal(data, v)
+}
+
+// decodeOr decodes a placement request with the hand-written decoder and hands it to set; a
+// message the fast path does not take (unknown fields, say) goes to protobuf-go into m instead.
+func decodeOr(data mem.BufferSlice, m proto.Message, set func(*Request)) error {
+	buf := data.Materialize()
+	var r Request
+	if decodeRequest(buf, &r) == nil {
+		set(&r)
+		return nil
+	}
+	proto.Reset(m)
+	return proto.Unmarshal(buf, m)
 }
 
 // Request is the content of a placement request: PlaceRequest and PlaceStreamRequest have the
