@@ -8,9 +8,11 @@ import (
 	"sync"
 	"weak"
 
+	"google.golang.org/grpc"
 	"google.golang.org/grpc/codes"
 	"google.golang.org/grpc/status"
 
+	"strayleaf/api/wire"
 	"strayleaf/modelstore"
 	"strayleaf/placement"
 	"strayleaf/placement/model"
@@ -19,8 +21,7 @@ import (
 
 // scratch is the per-goroutine memory of placements against one model.
 type scratch struct {
-	ws       *placement.Workspace
-	readings []model.Reading
+	ws *placement.Workspace
 }
 
 // workspacePools keeps one pool of scratch memory per decoded model. The key is a weak pointer,
@@ -63,11 +64,11 @@ type placeAsk struct {
 }
 
 // placeOne checks and places one witness. ref is the version used, for the answer.
-func (s *Server) placeOne(ctx context.Context, m *model.Model, ref string, witness string, readings []*pb.WitnessReading, ask placeAsk) (*pb.Placement, *problem) {
+func (s *Server) placeOne(ctx context.Context, m *model.Model, ref string, witness string, rs []model.Reading, ask placeAsk) (*pb.Placement, *problem) {
 	if p := contextProblem(ctx); p != nil {
 		return nil, p
 	}
-	if n := len(readings); n > s.limits.MaxUnitsPerWitness {
+	if n := len(rs); n > s.limits.MaxUnitsPerWitness {
 		return nil, badRequest("witness "+siglumOrNone(witness)+": too many readings",
 			violation("readings", "%d readings; at most %d per witness", n, s.limits.MaxUnitsPerWitness))
 	}
@@ -81,13 +82,6 @@ func (s *Server) placeOne(ctx context.Context, m *model.Model, ref string, witne
 	pool := s.pools.pool(m)
 	sc := pool.Get().(*scratch)
 	defer pool.Put(sc)
-	rs := sc.readings[:0]
-	for _, r := range readings {
-		rs = append(rs, model.Reading{Unit: r.GetUnit(), Reading: r.GetReading()})
-	}
-	sc.readings = rs
-	// The scratch readings are reused by the next call: let go of the request's strings.
-	defer clear(sc.readings)
 	var (
 		pl  *model.Placement
 		err error
@@ -182,13 +176,26 @@ func addSections(out *pb.Placement, sp *model.SectionedPlacement) {
 	}
 }
 
-// Place places one partial witness.
+// Place places one partial witness. The registered handler decodes requests straight into a
+// wire.Input and calls place (see placementServiceDesc); Place is the same for a caller that
+// holds a protobuf request.
 func (s *Server) Place(ctx context.Context, req *pb.PlaceRequest) (*pb.PlaceResponse, error) {
-	m, r, prob := s.resolve(req.GetModel(), "model")
+	in := getInput()
+	defer putInput(in)
+	in.Model, in.Witness, in.Nearest, in.BySection = req.GetModel(), req.GetWitness(), req.GetNearest(), req.GetBySection()
+	for _, r := range req.GetReadings() {
+		in.Readings = append(in.Readings, model.Reading{Unit: r.GetUnit(), Reading: r.GetReading()})
+	}
+	return s.place(ctx, in)
+}
+
+// place places the witness of a decoded Place request.
+func (s *Server) place(ctx context.Context, in *wire.Input) (*pb.PlaceResponse, error) {
+	m, r, prob := s.resolve(in.Model, "model")
 	if prob != nil {
 		return nil, prob.status()
 	}
-	p, prob := s.placeOne(ctx, m, r.String(), req.GetWitness(), req.GetReadings(), placeAsk{nearest: req.GetNearest(), bySection: req.GetBySection()})
+	p, prob := s.placeOne(ctx, m, r.String(), in.Witness, in.Readings, placeAsk{nearest: in.Nearest, bySection: in.BySection})
 	s.metrics.Placed(r.Name, prob == nil)
 	if prob != nil {
 		return nil, prob.status()
@@ -262,7 +269,7 @@ func suggestionsProto(ref string, sg *model.Suggestions) *pb.SuggestResponse {
 // streamSlot is one witness of a stream on its way through the placing workers.
 type streamSlot struct {
 	index int
-	req   *pb.PlaceStreamRequest
+	req   *wire.Input // recycled once the witness is placed
 	m     *model.Model
 	ref   modelstore.Ref
 	prob  *problem
@@ -277,11 +284,16 @@ type pinnedModel struct {
 	prob *problem
 }
 
-// PlaceStream places a stream of witnesses. The receiving loop resolves each model reference
+// PlaceStream places a stream of witnesses (see placeStream).
+func (s *Server) PlaceStream(stream pb.PlacementService_PlaceStreamServer) error {
+	return s.placeStream(stream)
+}
+
+// placeStream places a stream of witnesses, each received as a wire.Input. The receiving loop resolves each model reference
 // once per stream, a pool of workers places the witnesses, and a sender answers them in the
 // order they came; at most StreamWindow witnesses are in flight, so a slow reader of answers
 // slows the sender of witnesses rather than filling memory.
-func (s *Server) PlaceStream(stream pb.PlacementService_PlaceStreamServer) error {
+func (s *Server) placeStream(stream grpc.ServerStream) error {
 	ctx, cancel := context.WithCancel(stream.Context())
 	defer cancel()
 	window := make(chan *streamSlot, s.limits.StreamWindow)
@@ -304,7 +316,7 @@ func (s *Server) PlaceStream(stream pb.PlacementService_PlaceStreamServer) error
 		for sl := range window {
 			<-sl.done
 			if err == nil {
-				if err = stream.Send(sl.resp); err != nil {
+				if err = stream.SendMsg(sl.resp); err != nil {
 					cancel()
 				}
 			}
@@ -324,23 +336,28 @@ func (s *Server) PlaceStream(stream pb.PlacementService_PlaceStreamServer) error
 
 // receiveStream reads witnesses until the client closes its side, and returns the error the
 // stream ends with (nil for a clean end).
-func (s *Server) receiveStream(ctx context.Context, stream pb.PlacementService_PlaceStreamServer, window, work chan<- *streamSlot) error {
+func (s *Server) receiveStream(ctx context.Context, stream grpc.ServerStream, window, work chan<- *streamSlot) error {
 	pinned := map[string]pinnedModel{}
 	last := ""
 	for i := 0; ; i++ {
-		req, err := stream.Recv()
+		req := getInput()
+		err := stream.RecvMsg(req)
 		if err == io.EOF {
+			putInput(req)
 			return nil
 		}
 		if err != nil {
+			putInput(req)
 			return err
 		}
 		if i >= s.limits.MaxWitnessesPerStream {
-			return status.Errorf(codes.ResourceExhausted, "more than %d witnesses in one stream; start another stream for the rest (witness %d, %s, and later ones were not placed)",
-				s.limits.MaxWitnessesPerStream, i, siglumOrNone(req.GetWitness()))
+			err := status.Errorf(codes.ResourceExhausted, "more than %d witnesses in one stream; start another stream for the rest (witness %d, %s, and later ones were not placed)",
+				s.limits.MaxWitnessesPerStream, i, siglumOrNone(req.Witness))
+			putInput(req)
+			return err
 		}
 		sl := &streamSlot{index: i, req: req, done: make(chan struct{})}
-		ref := req.GetModel()
+		ref := req.Model
 		if ref == "" {
 			ref = last
 		}
@@ -354,6 +371,7 @@ func (s *Server) receiveStream(ctx context.Context, stream pb.PlacementService_P
 		select {
 		case window <- sl:
 		case <-ctx.Done():
+			putInput(req)
 			return status.FromContextError(ctx.Err()).Err()
 		}
 		work <- sl
@@ -362,12 +380,13 @@ func (s *Server) receiveStream(ctx context.Context, stream pb.PlacementService_P
 
 // placeSlot places one witness of a stream and fills its answer.
 func (s *Server) placeSlot(ctx context.Context, sl *streamSlot) {
-	resp := &pb.PlaceStreamResponse{Index: int32(sl.index), Witness: sl.req.GetWitness()}
+	defer func() { putInput(sl.req); sl.req = nil }()
+	resp := &pb.PlaceStreamResponse{Index: int32(sl.index), Witness: sl.req.Witness}
 	prob := sl.prob
 	if prob == nil {
 		var p *pb.Placement
-		p, prob = s.placeOne(ctx, sl.m, sl.ref.String(), sl.req.GetWitness(), sl.req.GetReadings(),
-			placeAsk{nearest: sl.req.GetNearest(), bySection: sl.req.GetBySection()})
+		p, prob = s.placeOne(ctx, sl.m, sl.ref.String(), sl.req.Witness, sl.req.Readings,
+			placeAsk{nearest: sl.req.Nearest, bySection: sl.req.BySection})
 		s.metrics.Placed(sl.ref.Name, prob == nil)
 		if prob == nil {
 			resp.Result = &pb.PlaceStreamResponse_Placement{Placement: p}

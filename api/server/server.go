@@ -98,7 +98,7 @@ func New(store *modelstore.Store, opt Options) (*Server, error) {
 
 // Register adds both services to g.
 func (s *Server) Register(g grpc.ServiceRegistrar) {
-	pb.RegisterPlacementServiceServer(g, s)
+	g.RegisterService(&placementServiceDesc, s)
 	pb.RegisterModelServiceServer(g, s)
 }
 

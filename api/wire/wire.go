@@ -1,18 +1,22 @@
 // Package wire is the gRPC codec of strayleaf: standard protobuf encoding throughout, with a
 // hand-written encoder and decoder for the placement requests (PlaceRequest and
 // PlaceStreamRequest: model, witness, readings, nearest, by_section), which carry hundreds of
-// small readings per witness and dominate the cost of the generic protobuf code. The bytes on the wire are exactly protobuf's: a peer using any
-// other protobuf library reads and writes them alike.
+// small readings per witness and dominate the cost of the generic protobuf code. The bytes on
+// the wire are exactly protobuf's: a peer using any other protobuf library reads and writes them
+// alike.
 //
-// The decoder copies a request's bytes once and makes every string of the request point into
-// that copy (no allocation per reading), and allocates the readings in one block. Anything it
-// does not expect (an unknown wire type for a known field, invalid UTF-8, a truncated message)
-// is handed to the standard decoder, so errors and edge cases stay exactly protobuf's.
+// The server decodes a placement request into an Input rather than a protobuf message: the
+// readings land in one reusable slice of model.Reading, and every string of the request points
+// into a single copy of its bytes, so decoding a witness of any size allocates that copy and
+// nothing per reading. Anything the fast decoder does not expect (an unknown wire type for a
+// known field, invalid UTF-8, a truncated message) is handed to the standard decoder, so errors
+// and edge cases stay exactly protobuf's.
 package wire
 
 import (
 	"encoding/binary"
 	"errors"
+	"slices"
 	"unicode/utf8"
 	"unsafe"
 
@@ -21,6 +25,7 @@ import (
 	"google.golang.org/protobuf/encoding/protowire"
 	"google.golang.org/protobuf/proto"
 
+	"strayleaf/placement/model"
 	pb "strayleaf/proto/strayleaf/v1"
 )
 
@@ -51,33 +56,80 @@ func (c codec) Marshal(v any) (mem.BufferSlice, error) {
 
 func (c codec) Unmarshal(data mem.BufferSlice, v any) error {
 	switch m := v.(type) {
+	case *Input:
+		return m.decode(data)
 	case *pb.PlaceRequest:
-		return decodeOr(data, m, func(r *Request) {
-			m.Model, m.Witness, m.Readings, m.Nearest, m.BySection = r.Model, r.Witness, r.Readings, r.Nearest, r.BySection
-		})
+		var in Input
+		if err := in.decode(data); err != nil {
+			return err
+		}
+		m.Model, m.Witness, m.Readings, m.Nearest, m.BySection = in.Model, in.Witness, in.readingsProto(), in.Nearest, in.BySection
+		return nil
 	case *pb.PlaceStreamRequest:
-		return decodeOr(data, m, func(r *Request) {
-			m.Model, m.Witness, m.Readings, m.Nearest, m.BySection = r.Model, r.Witness, r.Readings, r.Nearest, r.BySection
-		})
+		var in Input
+		if err := in.decode(data); err != nil {
+			return err
+		}
+		m.Model, m.Witness, m.Readings, m.Nearest, m.BySection = in.Model, in.Witness, in.readingsProto(), in.Nearest, in.BySection
+		return nil
 	}
 	return c.std.Unmarshal(data, v)
 }
 
-// decodeOr decodes a placement request with the hand-written decoder and hands it to set; a
-// message the fast path does not take (unknown fields, say) goes to protobuf-go into m instead.
-func decodeOr(data mem.BufferSlice, m proto.Message, set func(*Request)) error {
-	buf := data.Materialize()
-	var r Request
-	if decodeRequest(buf, &r) == nil {
-		set(&r)
-		return nil
-	}
-	proto.Reset(m)
-	return proto.Unmarshal(buf, m)
+// Input is a placement request as the server places it: the fields PlaceRequest and
+// PlaceStreamRequest share (same names, same numbers), with the readings as model readings. The
+// codec decodes either message into an Input; the strings point into one copy of the message's
+// bytes, and Readings keeps its capacity across decodes, so an Input is worth reusing.
+type Input struct {
+	Model, Witness string
+	Readings       []model.Reading
+	Nearest        int32
+	BySection      bool
 }
 
-// Request is the content of a placement request: PlaceRequest and PlaceStreamRequest have the
-// same fields under the same numbers.
+// Reset empties in for reuse, keeping the capacity of its readings and letting go of the
+// strings of the last request.
+func (in *Input) Reset() {
+	clear(in.Readings)
+	*in = Input{Readings: in.Readings[:0]}
+}
+
+// decode decodes a placement request into in (reset first) with the hand-written decoder; a
+// message the fast path does not take goes to protobuf-go, whose answer is copied in.
+func (in *Input) decode(data mem.BufferSlice) error {
+	buf := data.Materialize()
+	in.Reset()
+	if decodeInput(buf, in) == nil {
+		return nil
+	}
+	in.Reset()
+	var m pb.PlaceRequest
+	if err := proto.Unmarshal(buf, &m); err != nil {
+		return err
+	}
+	in.Model, in.Witness, in.Nearest, in.BySection = m.GetModel(), m.GetWitness(), m.GetNearest(), m.GetBySection()
+	for _, r := range m.GetReadings() {
+		in.Readings = append(in.Readings, model.Reading{Unit: r.GetUnit(), Reading: r.GetReading()})
+	}
+	return nil
+}
+
+// readingsProto returns the readings as protobuf messages, allocated in one block.
+func (in *Input) readingsProto() []*pb.WitnessReading {
+	if len(in.Readings) == 0 {
+		return nil
+	}
+	backing := make([]pb.WitnessReading, len(in.Readings))
+	ptrs := make([]*pb.WitnessReading, len(in.Readings))
+	for i, r := range in.Readings {
+		backing[i].Unit, backing[i].Reading = r.Unit, r.Reading
+		ptrs[i] = &backing[i]
+	}
+	return ptrs
+}
+
+// Request is what AppendRequest encodes: the content of a PlaceRequest or a PlaceStreamRequest,
+// which have the same fields under the same numbers.
 type Request struct {
 	Model, Witness string
 	Readings       []*pb.WitnessReading
@@ -208,8 +260,9 @@ func bytesField(b []byte) (start, end int) {
 	return n - len(v), n
 }
 
-// decodeRequest decodes buf into r; it keeps buf: the strings point into it.
-func decodeRequest(buf []byte, r *Request) error {
+// decodeInput decodes buf into r, appending to r.Readings; it keeps buf: the strings point
+// into it.
+func decodeInput(buf []byte, r *Input) error {
 	if len(buf) == 0 {
 		return nil
 	}
@@ -242,8 +295,7 @@ func decodeRequest(buf []byte, r *Request) error {
 		}
 		off += vl
 	}
-	backing := make([]pb.WitnessReading, n)
-	ptrs := make([]*pb.WitnessReading, n)
+	r.Readings = slices.Grow(r.Readings[:0], n)[:n]
 	i := 0
 	for off := 0; off < len(buf); {
 		num, typ, tl := tag(buf[off:])
@@ -288,7 +340,8 @@ func decodeRequest(buf []byte, r *Request) error {
 			}
 			continue
 		}
-		wr := &backing[i]
+		wr := &r.Readings[i]
+		*wr = model.Reading{}
 		for p := start; p < end; {
 			rn, rt, rtl := tag(buf[p:end])
 			if rtl < 0 {
@@ -324,9 +377,7 @@ func decodeRequest(buf []byte, r *Request) error {
 			}
 			p += fe
 		}
-		ptrs[i] = wr
 		i++
 	}
-	r.Readings = ptrs
 	return nil
 }
