@@ -149,6 +149,13 @@ const (
 	fieldReading   = 2
 )
 
+// One-byte tags of the fields the fast paths look for.
+const (
+	readingsTag = byte(fieldReadings<<3) | byte(protowire.BytesType)
+	unitTag     = byte(fieldUnit<<3) | byte(protowire.BytesType)
+	readingTag  = byte(fieldReading<<3) | byte(protowire.BytesType)
+)
+
 // RequestSize is the length of the encoding AppendRequest writes.
 func RequestSize(r *Request) int {
 	n := stringSize(r.Model) + stringSize(r.Witness)
@@ -273,6 +280,14 @@ func decodeInput(buf []byte, r *Input) error {
 	// First pass: check the framing and count the readings, so that they are allocated at once.
 	n := 0
 	for off := 0; off < len(buf); {
+		if off+1 < len(buf) && buf[off] == readingsTag && buf[off+1] < 0x80 {
+			// A reading of under 128 bytes, the common case.
+			if off += 2 + int(buf[off+1]); off > len(buf) {
+				return errFallback
+			}
+			n++
+			continue
+		}
 		num, typ, tl := tag(buf[off:])
 		if tl < 0 {
 			return errFallback
@@ -298,6 +313,23 @@ func decodeInput(buf []byte, r *Input) error {
 	r.Readings = slices.Grow(r.Readings[:0], n)[:n]
 	i := 0
 	for off := 0; off < len(buf); {
+		if off+1 < len(buf) && buf[off] == readingsTag && buf[off+1] < 0x80 {
+			// The common shape, unit then reading, both short; the first pass checked that the
+			// reading's bytes are there. Any other shape takes the general way below.
+			end := off + 2 + int(buf[off+1])
+			if u := off + 2; u+2 <= end && buf[u] == unitTag && buf[u+1] < 0x80 {
+				if v := u + 2 + int(buf[u+1]); v+2 <= end && buf[v] == readingTag && v+2+int(buf[v+1]) == end {
+					unit, reading := all[u+2:v], all[v+2:end]
+					if !ascii && (!utf8.ValidString(unit) || !utf8.ValidString(reading)) {
+						return errFallback
+					}
+					r.Readings[i] = model.Reading{Unit: unit, Reading: reading}
+					i++
+					off = end
+					continue
+				}
+			}
+		}
 		num, typ, tl := tag(buf[off:])
 		off += tl
 		if num == fieldNearest || num == fieldBySection {
