@@ -4,6 +4,7 @@ import (
 	"context"
 	"fmt"
 	"math/rand/v2"
+	"net"
 	"slices"
 	"sync"
 	"sync/atomic"
@@ -13,6 +14,7 @@ import (
 
 	"google.golang.org/grpc"
 	"google.golang.org/grpc/credentials/insecure"
+	"google.golang.org/grpc/health"
 	healthpb "google.golang.org/grpc/health/grpc_health_v1"
 	"google.golang.org/grpc/metadata"
 
@@ -113,15 +115,7 @@ func newBenchEnv(b *testing.B) *benchEnv {
 	}
 	env := &benchEnv{td: td, req: synthWitness(benchUnits, benchGroups, 3, 1),
 		ctx: metadata.AppendToOutgoingContext(context.Background(), "authorization", "Bearer "+td.tokens.place)}
-	for range benchClients {
-		conn, err := grpc.NewClient(td.GRPCAddr(), grpc.WithTransportCredentials(insecure.NewCredentials()),
-			grpc.WithDefaultCallOptions(grpc.ForceCodecV2(wire.Codec())))
-		if err != nil {
-			b.Fatal(err)
-		}
-		b.Cleanup(func() { conn.Close() })
-		env.conns = append(env.conns, conn)
-	}
+	env.conns = dialBench(b, td.GRPCAddr())
 	// The answer is a real placement, in the group the witness was drawn from.
 	resp, err := pb.NewPlacementServiceClient(env.conns[0]).Place(env.ctx, env.req)
 	if err != nil {
@@ -131,6 +125,21 @@ func newBenchEnv(b *testing.B) *benchEnv {
 		b.Fatalf("bench placement: best %s, %d units", p.GetBestGroup(), p.GetCoveredUnits())
 	}
 	return env
+}
+
+// dialBench opens the load generator's connections to addr.
+func dialBench(b *testing.B, addr string) []*grpc.ClientConn {
+	var conns []*grpc.ClientConn
+	for range benchClients {
+		conn, err := grpc.NewClient(addr, grpc.WithTransportCredentials(insecure.NewCredentials()),
+			grpc.WithDefaultCallOptions(grpc.ForceCodecV2(wire.Codec())))
+		if err != nil {
+			b.Fatal(err)
+		}
+		b.Cleanup(func() { conn.Close() })
+		conns = append(conns, conn)
+	}
+	return conns
 }
 
 // runParallel calls call from many goroutines spread over the connections and reports calls/s
@@ -270,6 +279,55 @@ func streamOnce(b *testing.B, ctx context.Context, conn *grpc.ClientConn, msg *p
 		lats = append(lats, time.Duration(time.Now().UnixNano()-sent[i].Load()))
 	}
 	return lats
+}
+
+// BenchmarkFloor is what gRPC alone costs for the two calls the unary goal compares, on a bare
+// server (the same codec; no interceptors, store or model): the health check, and a Place whose
+// handler decodes the 400-unit request into a wire.Input, as the daemon does, and answers with
+// a copy of the daemon's real answer without placing anything. The ratio of their throughputs
+// is the most any placement can reach against the health check on this transport.
+func BenchmarkFloor(b *testing.B) {
+	env := newBenchEnv(b)
+	answer, err := pb.NewPlacementServiceClient(env.conns[0]).Place(env.ctx, env.req)
+	if err != nil {
+		b.Fatal(err)
+	}
+	inputs := sync.Pool{New: func() any { return new(wire.Input) }}
+	place := func(_ any, _ context.Context, dec func(any) error, _ grpc.UnaryServerInterceptor) (any, error) {
+		in := inputs.Get().(*wire.Input)
+		defer func() { in.Reset(); inputs.Put(in) }()
+		if err := dec(in); err != nil {
+			return nil, err
+		}
+		if len(in.Readings) != benchUnits {
+			return nil, fmt.Errorf("decoded %d readings; sent %d", len(in.Readings), benchUnits)
+		}
+		return answer, nil
+	}
+	g := grpc.NewServer(grpc.ForceServerCodecV2(wire.Codec()))
+	g.RegisterService(&grpc.ServiceDesc{ServiceName: pb.PlacementService_ServiceDesc.ServiceName,
+		Methods: []grpc.MethodDesc{{MethodName: "Place", Handler: place}}}, nil)
+	healthpb.RegisterHealthServer(g, health.NewServer())
+	lis, err := net.Listen("tcp", "127.0.0.1:0")
+	if err != nil {
+		b.Fatal(err)
+	}
+	go g.Serve(lis)
+	b.Cleanup(g.Stop)
+	bare := &benchEnv{conns: dialBench(b, lis.Addr().String()), ctx: context.Background()}
+	b.Run("health", func(b *testing.B) {
+		req := &healthpb.HealthCheckRequest{}
+		bare.runParallel(b, func(conn *grpc.ClientConn) error {
+			_, err := healthpb.NewHealthClient(conn).Check(bare.ctx, req)
+			return err
+		})
+	})
+	b.Run("place-nothing", func(b *testing.B) {
+		bare.runParallel(b, func(conn *grpc.ClientConn) error {
+			_, err := pb.NewPlacementServiceClient(conn).Place(bare.ctx, env.req)
+			return err
+		})
+	})
 }
 
 // BenchmarkModelPlaceDirect is the placement alone, without the service around it, for
