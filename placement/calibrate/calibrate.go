@@ -332,7 +332,7 @@ func CalibrateContext(ctx context.Context, m *pb.Model, prep *prepare.Prepared, 
 	cal := &pb.Calibration{
 		Method: model.MethodLogisticIsotonic, Thresholds: final.thresholds, Values: final.values,
 		Coefficients: final.coef, ExpectedCalibrationError: ece, Samples: int32(len(samples)),
-		Features: append([]string(nil), model.FeatureNames...), Resamples: model.Resamples, Folds: int32(copt.Folds),
+		Features: append([]string(nil), model.FeatureNames...), Folds: int32(copt.Folds),
 	}
 	for _, b := range bins {
 		cal.Reliability = append(cal.Reliability, &pb.ReliabilityBin{Lo: b.Lo, Hi: b.Hi, Count: int32(b.Count), Confidence: b.Confidence, Accuracy: b.Accuracy})

@@ -191,7 +191,14 @@ func TestCalibrationOnHeldOutWitnesses(t *testing.T) {
 			t.Logf("bin (%.1f, %.1f]: %4d fragments, confidence %.3f, correct %.3f", b.Lo, b.Hi, b.Count, b.Confidence, b.Accuracy)
 		}
 	}
-	t.Logf("held-out ECE %.4f over %d fragments", ece, len(conf))
+	brier := 0.0
+	for i, c := range conf {
+		if correct[i] {
+			c = 1 - c
+		}
+		brier += c * c
+	}
+	t.Logf("held-out ECE %.4f, Brier score %.4f over %d fragments", ece, brier/float64(len(conf)), len(conf))
 	if ece > 0.05 {
 		t.Errorf("expected calibration error %.4f > 0.05", ece)
 	}

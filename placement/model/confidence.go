@@ -1,15 +1,12 @@
 package model
 
 import (
-	"cmp"
 	"fmt"
 	"math"
-	"math/rand/v2"
 	"slices"
 	"sort"
 
 	"strayleaf/placement"
-	"strayleaf/placement/nnls"
 	pb "strayleaf/proto/strayleaf/v1"
 )
 
@@ -22,10 +19,10 @@ type Features struct {
 	InformativeCoverage float64
 	// Margin is the best group's share less the second's.
 	Margin float64
-	// Stability is the share of bootstrap resamples of the used units (drawn with replacement,
-	// as many as there are, in random blocks for a witness of many units; Efron 1979, Ann.
-	// Statist. 7; from memory) whose placement has the same best group.
-	Stability float64
+	// Separation is the probability, under a normal approximation with the units' sandwich
+	// covariance of the fit, that the best group stays ahead of its rivals if the witness's
+	// units were drawn again (see Model.separation).
+	Separation float64
 	// RelativeResidual is the placement's Residual / ||v_C||^2.
 	RelativeResidual float64
 	// UsedUnits is the number of units that entered the fit.
@@ -40,12 +37,6 @@ type Features struct {
 	PosteriorLogOdds float64
 }
 
-// Resamples is the number of bootstrap resamples behind Features.Stability.
-const Resamples = 12
-
-// BootstrapBlocks is the most blocks of units the stability bootstrap resamples (see stability).
-const BootstrapBlocks = 20
-
 // LogOddsClip bounds Features.LogOdds.
 const LogOddsClip = 30
 
@@ -55,7 +46,7 @@ const MethodLogisticIsotonic = "logistic-isotonic"
 
 // FeatureNames are the features a calibration uses by default, in coefficient order.
 var FeatureNames = []string{
-	"informative_coverage", "sqrt_informative_coverage", "margin", "stability",
+	"informative_coverage", "sqrt_informative_coverage", "margin", "separation",
 	"relative_residual", "log1p_used_units", "log_odds", "posterior_log_odds",
 }
 
@@ -70,8 +61,8 @@ func (f Features) Values(names []string) ([]float64, error) {
 			out[i] = math.Sqrt(f.InformativeCoverage)
 		case "margin":
 			out[i] = f.Margin
-		case "stability":
-			out[i] = f.Stability
+		case "separation":
+			out[i] = f.Separation
 		case "relative_residual":
 			out[i] = f.RelativeResidual
 		case "log1p_used_units":
@@ -95,17 +86,16 @@ type calibrationMap struct {
 }
 
 // parseCalibration returns the usable calibration of a model, or nil if it has none or one this
-// build does not understand: another method, a feature it does not compute, another number of
-// resamples, a number that is not finite, or thresholds and values out of order (then the
-// provisional confidence is used).
+// build does not understand: another method, a feature it does not compute, features of a
+// bootstrap (resamples > 0, learnt by an earlier build), a number that is not finite, or
+// thresholds and values out of order (then the provisional confidence is used).
 func parseCalibration(c *pb.Calibration) *calibrationMap {
 	if c == nil || c.Method != MethodLogisticIsotonic || len(c.Coefficients) != len(c.Features)+1 ||
 		len(c.Thresholds) == 0 || len(c.Thresholds) != len(c.Values) {
 		return nil
 	}
-	// The stability feature of a map learnt with another number of resamples is not this
-	// build's stability.
-	if c.Resamples != 0 && c.Resamples != Resamples {
+	// A map learnt from bootstrap features is not this build's.
+	if c.Resamples != 0 {
 		return nil
 	}
 	if _, err := (Features{}).Values(c.Features); err != nil {
@@ -187,7 +177,7 @@ func provisionalConfidence(p *Placement) float64 {
 
 // assess fills in what follows from a finished fit: informative coverage, features, confidence
 // and the mixture test.
-func (m *Model) assess(p *Placement, obs []placement.Observation, s *placeScratch) {
+func (m *Model) assess(p *Placement, obs []placement.Observation, ws *placement.Workspace, s *placeScratch) {
 	g := m.guide()
 	k := g.k
 	used := s.used[:0]
@@ -205,7 +195,7 @@ func (m *Model) assess(p *Placement, obs []placement.Observation, s *placeScratc
 		if k > 1 {
 			f.Margin -= p.Groups[1].Share
 		}
-		f.Stability = m.stability(g, obs, best, p.Coefficients, &s.boot)
+		f.Separation = m.separation(g, obs, best, p.Coefficients, ws, &s.sep)
 	}
 	ll := s.ll[:k]
 	clear(ll)
@@ -256,313 +246,215 @@ func topTwo(h []float64) (int, int) {
 	return best, second
 }
 
-// bootScratch is the memory of the stability resampling (part of placeScratch).
-type bootScratch struct {
-	blocks, cross []float64 // per block: packed Gram sum and sum of W_u^T v_u
-	packed        []float64
-	g, c, h       []float64
-	// z, w and l are the warm start's solution on the passive set, negative gradient and
-	// Cholesky factor of G_PP (row-major, stride k); passive is P.
-	z, w, l []float64
-	passive []int
-	order   []int // the random permutation that deals the units into blocks
-	counts  []int
-	start   []int       // grams[start[b]:start[b+1]] are the unit Gram blocks dealt to block b
-	grams   [][]float64 // unit Gram blocks, by block
-	nz      []int       // blocks drawn in the current resample
-	obs     []placement.Observation
-	solver  *nnls.Solver
+// sepScratch is the memory of the separation feature (part of placeScratch).
+type sepScratch struct {
+	set   []int     // Q: the passive groups and the rival
+	idx   []int     // idx[a*q+b]: index of (Q[a], Q[b]) in a packed unit Gram block
+	gqq   []float64 // G_QQ
+	chol  []float64 // its Cholesky factor
+	hq    []float64 // the least-squares coefficients on Q
+	meat  []float64 // sum over units of s_u s_u^T, lower triangle, row-major q x q
+	score []float64
+	y     []float64
 }
 
-// stability is the share of Resamples bootstrap resamples of the used observations whose NNLS
-// placement has its largest coefficient in group best. The used units are dealt at random into
-// m = min(n, BootstrapBlocks) blocks of near-equal size, and each resample draws m blocks with
-// replacement, a block drawn c times entering the normal equations c times:
+// packedIndex is the index of entry (i, j), i <= j, of a k x k symmetric matrix packed as its
+// upper triangle by rows (the layout of placement.Engine.UnitGram).
+func packedIndex(i, j, k int) int { return i*k - i*(i-1)/2 + (j - i) }
+
+// separation is the probability, under a normal approximation, that the best group b of the
+// NNLS fit h stays ahead of its rivals if the witness's units were drawn again: a closed form
+// in the place of a bootstrap of the units, without resampling noise.
 //
-//	G* = sum_b c_b G_b,   c* = sum_b c_b W_b^T v_b,   G_b = sum_{u in b} W_u^T W_u.
+// The rivals are the other passive groups P = {j : h_j > 0} and, when some group is held at
+// zero, the one of those nearest to entering: the r off P with the largest w_r / G_rr, where
+// w = c - G h is the negative gradient (w_r <= 0 at the minimiser; -w_r / G_rr is how far a
+// step in r alone must go). On Q = P + {r} the least-squares coefficients solve
+// G_QQ h_Q = c_Q (h_r comes out at or below zero). Unit u's score is s_u = G_u h_Q - c_u on Q,
+// G_u = W_u^T W_u and c_u = W_u^T v_u its share of the normal equations, and the
+// cluster-robust sandwich estimate of the covariance of h_Q, the units being the clusters, is
 //
-// With m = n (up to BootstrapBlocks units) this is the plain bootstrap of the units; beyond, it
-// is the bootstrap of random groups of units, whose sums are independent and alike, so the
-// spread of the resampled fit is preserved while a resample costs O(m k^2) however many units
-// the witness has. The draws are seeded by the observations themselves, so the same witness
-// always gets the same value.
+//	V = n/(n-q) G_QQ^{-1} (sum_u s_u s_u^T) G_QQ^{-1},   n used units, q = |Q|
 //
-// Each resample is solved first from the passive set P = {j : h_j > 0} of the full fit h (see
-// warmSolve), which a resample usually keeps; only when the KKT conditions fail there is it
-// solved from scratch by the active-set method. Either way the answer is the resample's NNLS
-// minimiser.
-func (m *Model) stability(g *guide, obs []placement.Observation, best int, h []float64, s *bootScratch) float64 {
+// (White 1980, Econometrica 48; Liang & Zeger 1986, Biometrika 73; the n/(n-q) small-sample
+// factor is the usual one; all from memory). For each rival j, z_j = (h_b - h_j) / sqrt(d^T V d)
+// with d = e_b - e_j, and the result is the Bonferroni bound 1 - sum_j Phi(-z_j), clipped at
+// 0. It is 1 for a one-group model, and 0 when the units cannot tell the spread (n <= q) or
+// G_QQ is singular.
+func (m *Model) separation(g *guide, obs []placement.Observation, best int, h []float64, ws *placement.Workspace, s *sepScratch) float64 {
 	k := g.k
-	tri := k * (k + 1) / 2
-	prof := m.pb.Profile
-	seed := uint64(0x5eed)
-	n := 0
-	for _, o := range obs {
-		if m.hasRows[o.Unit] {
-			seed += mix64(uint64(o.Unit)<<32 ^ uint64(uint32(o.Row)))
-			n++
+	G, c := ws.Gram(), ws.Cross()
+	Q := s.set[:0]
+	for j, v := range h {
+		if v > 0 {
+			Q = append(Q, j)
 		}
 	}
-	if n == 0 {
+	rival, step := -1, math.Inf(-1)
+	for j := range k {
+		if h[j] > 0 || !(G[j*k+j] > 0) {
+			continue
+		}
+		w := c[j]
+		for _, i := range Q {
+			w -= G[j*k+i] * h[i]
+		}
+		if v := w / G[j*k+j]; v > step {
+			rival, step = j, v
+		}
+	}
+	if rival >= 0 {
+		Q = append(Q, rival)
+		slices.Sort(Q)
+	}
+	s.set = Q
+	q := len(Q)
+	bi := slices.Index(Q, best)
+	if q == 1 {
+		if bi == 0 {
+			return 1 // no rival
+		}
 		return 0
 	}
-	rng := rand.New(rand.NewPCG(seed, 0x73746162696c6974)) // "stabilit"
-	nb := min(n, BootstrapBlocks)
-	// Deal in unit order, so that the order the readings came in does not matter.
-	byUnit := func(a, b placement.Observation) int { return cmp.Compare(a.Unit, b.Unit) }
-	if !slices.IsSortedFunc(obs, byUnit) {
-		s.obs = append(s.obs[:0], obs...)
-		slices.SortFunc(s.obs, byUnit)
-		obs = s.obs
+	if bi < 0 {
+		return 0
 	}
-	s.blocks = grow(s.blocks, nb*tri)
-	s.cross = grow(s.cross, nb*k)
-	s.order = growInts(s.order, n)
-	s.counts = growInts(s.counts, nb)
-	s.start = growInts(s.start, nb+1)
-	if cap(s.grams) < n {
-		s.grams = make([][]float64, n)
-	}
-	blocks, cross, grams := s.blocks[:nb*tri], s.cross[:nb*k], s.grams[:n]
-	clear(blocks)
-	clear(cross)
-	// Deal the units into blocks: a random permutation of positions, position i to block i mod nb.
-	order := s.order[:n]
-	for i := range order {
-		order[i] = i
-	}
-	for i := n - 1; i > 0; i-- {
-		j := rng.IntN(i + 1)
-		order[i], order[j] = order[j], order[i]
-	}
-	// Block b gets the positions i with order[i] mod nb = b: sizes n/nb or n/nb + 1.
-	start := s.start[:nb+1]
-	start[0] = 0
-	for b := range nb {
-		start[b+1] = start[b] + n/nb
-		if b < n%nb {
-			start[b+1]++
+	// Cholesky factor of G_QQ, then h_Q.
+	gqq, L := s.gqq[:q*q], s.chol[:q*q]
+	for a, i := range Q {
+		for b, j := range Q {
+			gqq[a*q+b] = G[i*k+j]
 		}
 	}
-	fill := s.counts[:nb]
-	copy(fill, start[:nb])
-	i := 0
+	if !cholesky(gqq, L, q) {
+		return 0
+	}
+	hq := s.hq[:q]
+	for a, i := range Q {
+		hq[a] = c[i]
+	}
+	cholSolve(L, hq)
+	// The scores, unit by unit.
+	idx, meat, score := s.idx[:q*q], s.meat[:q*q], s.score[:q]
+	for a, i := range Q {
+		for b, j := range Q {
+			idx[a*q+b] = packedIndex(min(i, j), max(i, j), k)
+		}
+	}
+	clear(meat)
+	prof := m.pb.Profile
+	n := 0
 	for _, o := range obs {
 		if !m.hasRows[o.Unit] {
 			continue
 		}
-		b := order[i] % nb
-		i++
-		grams[fill[b]] = m.engine.UnitGram(o.Unit)
-		fill[b]++
+		n++
+		gu := m.engine.UnitGram(o.Unit)
+		for a := range q {
+			v := 0.0
+			for b, at := range idx[a*q : a*q+q] {
+				v += gu[at] * hq[b]
+			}
+			score[a] = v
+		}
 		if o.Row >= 0 {
 			w := m.rowWeight[o.Row]
 			row := prof[o.Row*k : o.Row*k+k]
-			cb := cross[b*k : (b+1)*k]
-			for j, v := range row {
-				cb[j] += w * v
+			for a, j := range Q {
+				score[a] -= w * row[j]
 			}
 		}
+		addOuter(meat, score)
 	}
-	for b := range nb {
-		addSlices(blocks[b*tri:(b+1)*tri], grams[start[b]:start[b+1]])
+	if n <= q {
+		return 0
 	}
-	s.passive = s.passive[:0]
-	for j, v := range h {
-		if v > 0 {
-			s.passive = append(s.passive, j)
+	factor := float64(n) / float64(n-q)
+	tail := 0.0
+	y := s.y[:q]
+	for a := range Q {
+		if a == bi {
+			continue
 		}
-	}
-	counts := s.counts[:nb]
-	same := 0
-	for r := 0; r < Resamples; r++ {
-		clear(counts)
-		for i := 0; i < nb; i++ {
-			counts[rng.IntN(nb)]++
-		}
-		nz := s.nz[:0]
-		for b, c := range counts {
-			if c > 0 {
-				nz = append(nz, b)
-			}
-		}
-		s.nz = nz
-		addScaledBlocks(s.packed, blocks, tri, nz, counts)
-		addScaledBlocks(s.c, cross, k, nz, counts)
-		p := 0
-		for a := 0; a < k; a++ {
-			for c := a; c < k; c++ {
-				s.g[a*k+c] = s.packed[p]
-				s.g[c*k+a] = s.packed[p]
-				p++
-			}
-		}
-		if !s.warmSolve(k) {
-			if err := s.solver.SolveGram(s.g, s.c, s.h); err != nil {
-				continue
-			}
-		}
-		top, _ := topTwo(s.h)
-		if s.h[top] > 0 && top == best {
-			same++
+		clear(y)
+		y[bi], y[a] = 1, -1
+		v := factor * sandwichQuad(L, meat, y)
+		diff := hq[bi] - hq[a]
+		switch {
+		case v > 0:
+			tail += 0.5 * math.Erfc(diff/math.Sqrt(v)/math.Sqrt2)
+		case diff <= 0:
+			tail++
 		}
 	}
-	return float64(same) / Resamples
+	return math.Max(0, 1-tail)
 }
 
-// warmMargin is the relative margin by which warmSolve needs the negative gradient off the
-// passive set to be below zero: w_j < -warmMargin ||a_j|| sum_P ||a_i|| z_i, far beyond the
-// rounding of w, so that a w_j that is zero in exact arithmetic (a column in the span of the
-// passive ones, where the minimiser is not unique) is never taken for negative.
-const warmMargin = 1e-9
-
-// warmSolve tries the passive set P of the full fit for the resample's problem
-// min x^T G x - 2 c^T x over x >= 0 (G = s.g, c = s.c): it solves G_PP z = c_P by Cholesky and
-// accepts x = (z on P, 0 elsewhere), writing it to s.h, when it satisfies the KKT conditions
-// strictly: z > 0, and w_j = c_j - (G x)_j < 0 off P, by the margin warmMargin (or w_j <= 0 for a column with G_jj = 0,
-// which the active-set method can never admit). The problem is convex, so such an x is a
-// minimiser; every minimiser has the same G x, hence the same w, so w_j < 0 forces x_j = 0 off
-// P, and G_PP positive definite makes x unique: it is what nnls.Solver.SolveGram returns, up
-// to rounding. A Cholesky pivot at most 1e-12 G_jj (the solver's dependence test) refuses P.
-// It reports whether x was accepted.
-func (s *bootScratch) warmSolve(k int) bool {
-	P, G, c, L, z := s.passive, s.g, s.c, s.l, s.z
-	np := len(P)
-	if np == 0 {
-		return false
-	}
-	for a, j := range P {
-		la := L[a*k : a*k+a+1]
-		d := G[j*k+j]
-		for b := 0; b < a; b++ {
-			lb := L[b*k : b*k+b+1]
-			v := G[j*k+P[b]]
+// cholesky writes into L the lower Cholesky factor of the symmetric q x q matrix A (both
+// row-major; only the lower triangle of L is written) and reports whether A is positive definite
+// to working precision: every pivot above 1e-12 times its diagonal entry.
+func cholesky(A, L []float64, q int) bool {
+	for a := range q {
+		for b := 0; b <= a; b++ {
+			v := A[a*q+b]
 			for t := 0; t < b; t++ {
-				v -= la[t] * lb[t]
+				v -= L[a*q+t] * L[b*q+t]
 			}
-			v /= lb[b]
-			la[b] = v
-			d -= v * v
-		}
-		if !(d > 1e-12*G[j*k+j]) {
-			return false
-		}
-		la[a] = math.Sqrt(d)
-	}
-	// L y = c_P, then L^T z = y (y kept in z).
-	for a, j := range P {
-		v := c[j]
-		for b := 0; b < a; b++ {
-			v -= L[a*k+b] * z[b]
-		}
-		z[a] = v / L[a*k+a]
-	}
-	for a := np - 1; a >= 0; a-- {
-		v := z[a]
-		for b := a + 1; b < np; b++ {
-			v -= L[b*k+a] * z[b]
-		}
-		z[a] = v / L[a*k+a]
-		if !(z[a] > 0) {
-			return false
-		}
-	}
-	w := s.w
-	copy(w, c)
-	scale := 0.0 // sum_P ||a_j|| z_j, the size of the terms cancelled in w
-	for a, j := range P {
-		col := G[j*k : j*k+k] // row j = column j by symmetry
-		for i := range w {
-			w[i] -= col[i] * z[a]
-		}
-		scale += math.Sqrt(G[j*k+j]) * z[a]
-	}
-	q := 0
-	for j := range k {
-		if q < np && P[q] == j {
-			q++
-			continue
-		}
-		d := G[j*k+j]
-		if d == 0 {
-			if !(w[j] <= 0) {
-				return false
+			if a == b {
+				if !(v > 1e-12*A[a*q+a]) {
+					return false
+				}
+				L[a*q+a] = math.Sqrt(v)
+			} else {
+				L[a*q+b] = v / L[b*q+b]
 			}
-			continue
 		}
-		if !(w[j] < -warmMargin*math.Sqrt(d)*scale) {
-			return false
-		}
-	}
-	clear(s.h)
-	for a, j := range P {
-		s.h[j] = z[a]
 	}
 	return true
 }
 
-// addSlices adds the vectors srcs[q] (each at least len(dst) long) to dst, four per pass over
-// dst, so that dst is loaded and stored once per four.
-func addSlices(dst []float64, srcs [][]float64) {
-	q := 0
-	for ; q+4 <= len(srcs); q += 4 {
-		a, b, c, d := srcs[q][:len(dst)], srcs[q+1][:len(dst)], srcs[q+2][:len(dst)], srcs[q+3][:len(dst)]
-		for i := range dst {
-			dst[i] += (a[i] + b[i]) + (c[i] + d[i])
-		}
-	}
-	for ; q < len(srcs); q++ {
-		a := srcs[q][:len(dst)]
-		for i := range dst {
-			dst[i] += a[i]
+// addOuter adds s s^T to the lower triangle of the len(s) x len(s) row-major matrix M.
+func addOuter(M, s []float64) {
+	q := len(s)
+	for a, sa := range s {
+		row := M[a*q : a*q+a+1]
+		for b := range row {
+			row[b] += sa * s[b]
 		}
 	}
 }
 
-// addScaledBlocks sets dst to sum over b in which of counts[b] * src[b*n : (b+1)*n], with
-// n = len(dst), four blocks per pass over dst.
-func addScaledBlocks(dst, src []float64, n int, which, counts []int) {
-	clear(dst)
-	dst = dst[:n]
-	q := 0
-	for ; q+4 <= len(which); q += 4 {
-		b0, b1, b2, b3 := which[q], which[q+1], which[q+2], which[q+3]
-		f0, f1, f2, f3 := float64(counts[b0]), float64(counts[b1]), float64(counts[b2]), float64(counts[b3])
-		a, b, c, d := src[b0*n:b0*n+n], src[b1*n:b1*n+n], src[b2*n:b2*n+n], src[b3*n:b3*n+n]
-		for i := range dst {
-			dst[i] += (f0*a[i] + f1*b[i]) + (f2*c[i] + f3*d[i])
+// sandwichQuad returns d^T A^{-1} M A^{-1} d for A = L L^T (lower Cholesky factor L) and the
+// symmetric M given by its lower triangle, both q x q row-major with q = len(d); d is
+// overwritten with A^{-1} d.
+func sandwichQuad(L, M, d []float64) float64 {
+	cholSolve(L, d)
+	v := 0.0
+	for i, di := range d {
+		for j := 0; j < i; j++ {
+			v += 2 * di * M[i*len(d)+j] * d[j]
 		}
+		v += di * M[i*len(d)+i] * di
 	}
-	for ; q < len(which); q++ {
-		b0 := which[q]
-		f0 := float64(counts[b0])
-		a := src[b0*n : b0*n+n]
-		for i := range dst {
-			dst[i] += f0 * a[i]
+	return v
+}
+
+// cholSolve overwrites x with A^{-1} x, for A = L L^T given by its lower Cholesky factor L
+// (row-major, len(x) x len(x)).
+func cholSolve(L, x []float64) {
+	q := len(x)
+	for a := range q {
+		v := x[a]
+		for t := 0; t < a; t++ {
+			v -= L[a*q+t] * x[t]
 		}
+		x[a] = v / L[a*q+a]
 	}
-}
-
-// grow returns s with length n, reallocated if its capacity is short (contents not kept).
-func grow(s []float64, n int) []float64 {
-	if cap(s) < n {
-		return make([]float64, n)
+	for a := q - 1; a >= 0; a-- {
+		v := x[a]
+		for t := a + 1; t < q; t++ {
+			v -= L[t*q+a] * x[t]
+		}
+		x[a] = v / L[a*q+a]
 	}
-	return s[:n]
-}
-
-// growInts is grow for ints.
-func growInts(s []int, n int) []int {
-	if cap(s) < n {
-		return make([]int, n)
-	}
-	return s[:n]
-}
-
-// mix64 is the splitmix64 finaliser (Steele, Lea & Flood 2014; from memory).
-func mix64(z uint64) uint64 {
-	z += 0x9e3779b97f4a7c15
-	z = (z ^ (z >> 30)) * 0xbf58476d1ce4e5b9
-	z = (z ^ (z >> 27)) * 0x94d049bb133111eb
-	return z ^ (z >> 31)
 }

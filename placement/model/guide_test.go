@@ -5,6 +5,7 @@ import (
 	"errors"
 	"math"
 	"os"
+	"slices"
 	"sync"
 	"testing"
 
@@ -355,7 +356,8 @@ func TestProbeListSeparatesGroups(t *testing.T) {
 	}
 }
 
-// Stability is reproducible: the same readings in another order give the same features.
+// Features are reproducible: the same readings in another order give the same features (up to
+// the rounding of sums taken in another order).
 func TestFeaturesReproducible(t *testing.T) {
 	m, tr := smallModel(t)
 	c := tr.Collation
@@ -374,12 +376,12 @@ func TestFeaturesReproducible(t *testing.T) {
 	}
 	f1, f2 := p1.Features, p2.Features
 	close := func(a, b float64) bool { return math.Abs(a-b) <= 1e-9*(1+math.Abs(a)) }
-	if f1.Stability != f2.Stability || f1.UsedUnits != f2.UsedUnits || !close(f1.InformativeCoverage, f2.InformativeCoverage) ||
+	if !close(f1.Separation, f2.Separation) || f1.UsedUnits != f2.UsedUnits || !close(f1.InformativeCoverage, f2.InformativeCoverage) ||
 		!close(f1.Margin, f2.Margin) || !close(f1.RelativeResidual, f2.RelativeResidual) || !close(f1.LogOdds, f2.LogOdds) ||
 		!close(f1.PosteriorLogOdds, f2.PosteriorLogOdds) || !close(p1.Confidence, p2.Confidence) {
 		t.Errorf("features differ with the order of readings: %+v vs %+v", p1.Features, p2.Features)
 	}
-	if p1.Features.Stability < 0 || p1.Features.Stability > 1 || p1.Calibrated {
+	if p1.Features.Separation < 0 || p1.Features.Separation > 1 || p1.Calibrated {
 		t.Errorf("features %+v, calibrated %v (the model has no calibration)", p1.Features, p1.Calibrated)
 	}
 }
@@ -406,6 +408,12 @@ func TestUnknownCalibrationFallsBack(t *testing.T) {
 	p, _ = m3.Place("a", rowReadings(tr.Collation, tr.Collation.Row(1)), nil)
 	if want := InterpolateSteps([]float64{0, 1}, []float64{0.1, 0.9}, p.Features.Margin); !p.Calibrated || math.Abs(p.Confidence-want) > 1e-12 {
 		t.Errorf("confidence %v (calibrated %v); the map gives %v", p.Confidence, p.Calibrated, want)
+	}
+	// The same map, learnt from the bootstrap features of an earlier build.
+	pm.Calibration.Resamples = 12
+	m4, _ := FromProto(pm)
+	if p, _ = m4.Place("a", rowReadings(tr.Collation, tr.Collation.Row(1)), nil); p.Calibrated {
+		t.Error("a calibration learnt from bootstrap resamples was used")
 	}
 }
 
@@ -450,7 +458,7 @@ func TestConcurrentGuidance(t *testing.T) {
 		go func() {
 			defer wg.Done()
 			p, err := m.Place("w", rd, nil)
-			if err == nil && (p.Confidence != want.Confidence || p.Features.Stability != want.Features.Stability) {
+			if err == nil && (p.Confidence != want.Confidence || p.Features.Separation != want.Features.Separation) {
 				err = errors.New("concurrent placement differs")
 			}
 			if err == nil {
@@ -497,5 +505,57 @@ func TestNonFiniteCalibrationFallsBack(t *testing.T) {
 		if v := InterpolateSteps(th, th, nan); !math.IsNaN(v) {
 			t.Errorf("InterpolateSteps(%v, NaN) = %v; want NaN", th, v)
 		}
+	}
+}
+
+// Ground truth (the simulator): the separation feature is near 1 for every whole pure witness,
+// lower for the most evenly mixed one, no higher for a short leaf than for a long one, and 0
+// for a single unit (too few units to tell any spread).
+func TestSeparationTracksEvidence(t *testing.T) {
+	m, tr := smallModel(t)
+	c := tr.Collation
+	sep := func(rd []Reading) float64 {
+		t.Helper()
+		p, err := m.PlaceWith("x", rd, nil, PlaceOptions{})
+		if err != nil {
+			t.Fatal(err)
+		}
+		if s := p.Features.Separation; !(s >= 0 && s <= 1) {
+			t.Fatalf("separation %v outside [0, 1]", s)
+		}
+		return p.Features.Separation
+	}
+	minPure, pure, even, evenGap := 1.0, -1, -1, 1.0
+	for w, wt := range tr.Truth.Witnesses {
+		top := slices.Sorted(slices.Values(wt.Shares))
+		top1, top2 := top[len(top)-1], top[len(top)-2]
+		if top1 >= 0.999 {
+			minPure = min(minPure, sep(rowReadings(c, c.Row(w))))
+			pure = w
+		} else if top1-top2 < evenGap {
+			even, evenGap = w, top1-top2
+		}
+	}
+	if pure < 0 || even < 0 {
+		t.Fatal("the tradition needs pure and mixed witnesses")
+	}
+	se := sep(rowReadings(c, c.Row(even)))
+	var leaves []float64
+	for _, n := range []int{40, 10, 4} {
+		leaves = append(leaves, sep(rowReadings(c, simulate.CutRange(c.Row(pure), 20, n))))
+	}
+	t.Logf("separation: pure witnesses at least %.4f; %s (shares %.2f) %.4f; leaves of 40/10/4 units %.4f",
+		minPure, c.Witness(even), tr.Truth.Witnesses[even].Shares, se, leaves)
+	if minPure < 0.99 {
+		t.Errorf("a whole pure witness has separation %.4f; expected at least 0.99", minPure)
+	}
+	if se >= minPure || se > 0.95 {
+		t.Errorf("the most evenly mixed witness has separation %.4f; expected below the pure witnesses' %.4f and 0.95", se, minPure)
+	}
+	if !(leaves[0] >= leaves[2]) {
+		t.Errorf("separation of a 40-unit leaf %.4f below that of a 4-unit leaf %.4f", leaves[0], leaves[2])
+	}
+	if s := sep(rowReadings(c, c.Row(pure))[:1]); s != 0 {
+		t.Errorf("one unit: separation %.4f; expected 0", s)
 	}
 }

@@ -200,7 +200,7 @@ func (m *Model) PlaceWith(witness string, readings []Reading, ws *placement.Work
 		return nil, fmt.Errorf("witness %s: %w", witness, err)
 	}
 	m.finish(p, fit)
-	m.assess(p, obs, s)
+	m.assess(p, obs, ws, s)
 	if opt.Nearest > 0 {
 		p.Nearest = m.Nearest(readings, opt.Nearest)
 	}

@@ -2,7 +2,6 @@ package model
 
 import (
 	"strayleaf/placement"
-	"strayleaf/placement/nnls"
 )
 
 // placeScratch is the per-call memory of a placement: everything Place needs besides what it
@@ -18,7 +17,7 @@ type placeScratch struct {
 	ll   []float64
 	// pa, pb are the reading probabilities of the mixture test's two groups.
 	pa, pb []float64
-	boot   bootScratch
+	sep    sepScratch
 }
 
 // getScratch takes a placeScratch from m's pool, sized for m.
@@ -27,12 +26,10 @@ func (m *Model) getScratch() *placeScratch {
 		return s
 	}
 	k, nu := m.K(), len(m.pb.Units)
-	tri := k * (k + 1) / 2
 	return &placeScratch{
 		seen: make([]uint32, nu), at: make([]int32, nu), ll: make([]float64, k),
-		boot: bootScratch{packed: make([]float64, tri), g: make([]float64, k*k), c: make([]float64, k),
-			h: make([]float64, k), z: make([]float64, k), w: make([]float64, k), l: make([]float64, k*k),
-			passive: make([]int, 0, k), solver: nnls.NewSolver(k)},
+		sep: sepScratch{set: make([]int, 0, k), idx: make([]int, k*k), gqq: make([]float64, k*k), chol: make([]float64, k*k), hq: make([]float64, k),
+			meat: make([]float64, k*k), score: make([]float64, k), y: make([]float64, k)},
 	}
 }
 

@@ -476,3 +476,11 @@ func (m *Model) SectionOf(id string) string {
 	}
 	return m.pb.Units[u].Section
 }
+
+// mix64 is the splitmix64 finaliser (Steele, Lea & Flood 2014; from memory).
+func mix64(z uint64) uint64 {
+	z += 0x9e3779b97f4a7c15
+	z = (z ^ (z >> 30)) * 0xbf58476d1ce4e5b9
+	z = (z ^ (z >> 27)) * 0x94d049bb133111eb
+	return z ^ (z >> 31)
+}

@@ -1136,7 +1136,9 @@ type Calibration struct {
 	Samples int32 `protobuf:"varint,6,opt,name=samples,proto3" json:"samples,omitempty"`
 	// features names the placement features, in the order of coefficients[1:].
 	Features []string `protobuf:"bytes,7,rep,name=features,proto3" json:"features,omitempty"`
-	// resamples is the number of bootstrap resamples behind the stability feature.
+	// resamples was the number of bootstrap resamples behind the "stability" feature of earlier
+	// builds; a calibration learnt from it has resamples > 0 and is not used (the confidence
+	// falls back to the provisional one until the model is trained again). Now always 0.
 	Resamples int32 `protobuf:"varint,8,opt,name=resamples,proto3" json:"resamples,omitempty"`
 	// folds is K, the number of refits.
 	Folds int32 `protobuf:"varint,9,opt,name=folds,proto3" json:"folds,omitempty"`
