@@ -78,7 +78,7 @@ func BenchmarkPlaceFragment(b *testing.B) {
 	}
 }
 
-// BenchmarkPlace400: Place (with confidence features and mixture test, with and without the
+// BenchmarkPlace400: PlaceWith (with confidence features and mixture test, with and without the
 // nearest training witnesses) of a 400-unit witness against the 3,000-reading, k = 12 model.
 // Goal: about 40 µs or less per call without nearest witnesses, as the service places (its
 // unary and streaming goals in api/bench_test.go rest on it), and few allocations.
