@@ -289,9 +289,9 @@ func (s *Server) PlaceStream(stream pb.PlacementService_PlaceStreamServer) error
 	return s.placeStream(stream)
 }
 
-// placeStream places a stream of witnesses, each received as a wire.Input. The receiving loop resolves each model reference
-// once per stream, a pool of workers places the witnesses, and a sender answers them in the
-// order they came; at most StreamWindow witnesses are in flight, so a slow reader of answers
+// placeStream places a stream of witnesses, each received as a wire.Input. The receiving loop
+// resolves each model reference once per stream, a pool of workers places the witnesses, and a
+// sender answers them in the order they came; at most StreamWindow witnesses are in flight, so a slow reader of answers
 // slows the sender of witnesses rather than filling memory.
 func (s *Server) placeStream(stream grpc.ServerStream) error {
 	ctx, cancel := context.WithCancel(stream.Context())

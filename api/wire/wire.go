@@ -318,7 +318,7 @@ func decodeInput(buf []byte, r *Input) error {
 			// reading's bytes are there. Any other shape takes the general way below.
 			end := off + 2 + int(buf[off+1])
 			if u := off + 2; u+2 <= end && buf[u] == unitTag && buf[u+1] < 0x80 {
-				if v := u + 2 + int(buf[u+1]); v+2 <= end && buf[v] == readingTag && v+2+int(buf[v+1]) == end {
+				if v := u + 2 + int(buf[u+1]); v+2 <= end && buf[v] == readingTag && buf[v+1] < 0x80 && v+2+int(buf[v+1]) == end {
 					unit, reading := all[u+2:v], all[v+2:end]
 					if !ascii && (!utf8.ValidString(unit) || !utf8.ValidString(reading)) {
 						return errFallback
