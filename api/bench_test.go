@@ -19,6 +19,7 @@ import (
 	"google.golang.org/grpc/metadata"
 
 	"strayleaf/api/wire"
+	"strayleaf/client"
 	"strayleaf/placement/model"
 	pb "strayleaf/proto/strayleaf/v1"
 )
@@ -281,6 +282,38 @@ func streamOnce(b *testing.B, ctx context.Context, conn *grpc.ClientConn, msg *p
 		lats = append(lats, time.Duration(time.Now().UnixNano()-sent[i].Load()))
 	}
 	return lats
+}
+
+// BenchmarkClientPlaceAll sends b.N 400-unit witnesses through the Go client's PlaceAll (one
+// stream), which builds each request from the client's own readings: the pipeline's view of
+// PlaceStream, client costs included.
+func BenchmarkClientPlaceAll(b *testing.B) {
+	env := newBenchEnv(b)
+	c := env.td.client(b, env.td.tokens.place)
+	rs := make([]client.Reading, len(env.req.Readings))
+	for i, r := range env.req.Readings {
+		rs[i] = client.Reading{Unit: r.Unit, Reading: r.Reading}
+	}
+	ws := make([]client.Witness, b.N)
+	for i := range ws {
+		ws[i] = client.Witness{Siglum: env.req.Witness, Readings: rs}
+	}
+	b.ReportAllocs()
+	b.ResetTimer()
+	start, cpu0 := time.Now(), cpuTime()
+	err := c.PlaceAll(context.Background(), "bench", ws, func(r client.StreamResult) error {
+		if r.Err != nil {
+			return r.Err
+		}
+		return nil
+	})
+	elapsed, cpu := time.Since(start), cpuTime()-cpu0
+	b.StopTimer()
+	if err != nil {
+		b.Fatal(err)
+	}
+	b.ReportMetric(float64(b.N)/elapsed.Seconds(), "witnesses/s")
+	b.ReportMetric(float64(cpu.Microseconds())/float64(b.N), "cpu-µs/witness")
 }
 
 // BenchmarkFloor is what gRPC alone costs for the two calls the unary goal compares, on a bare

@@ -12,6 +12,8 @@ import (
 
 	"google.golang.org/grpc/codes"
 
+	"strayleaf/api/wire"
+	"strayleaf/placement/model"
 	pb "strayleaf/proto/strayleaf/v1"
 )
 
@@ -164,6 +166,19 @@ func readingsProto(rs []Reading) []*pb.WitnessReading {
 	return out
 }
 
+// placeInput returns a placement request as a wire.Input, which the codec encodes as the
+// protobuf request message it stands for: a witness is sent without a protobuf message per
+// reading. Each request gets its own Input (a stats handler given by WithDialOptions may keep
+// the messages it sees).
+func placeInput(ref, witness string, readings []Reading, opt PlaceOptions) *wire.Input {
+	in := &wire.Input{Model: ref, Witness: witness, Nearest: int32(min(opt.Nearest, math.MaxInt32)), BySection: opt.BySection,
+		Readings: make([]model.Reading, len(readings))}
+	for i, r := range readings {
+		in.Readings[i] = model.Reading{Unit: r.Unit, Reading: r.Reading}
+	}
+	return in
+}
+
 // Place places one partial witness against the model a reference names.
 func (c *Client) Place(ctx context.Context, model, witness string, readings []Reading) (*Placement, error) {
 	return c.PlaceWith(ctx, model, witness, readings, PlaceOptions{})
@@ -171,8 +186,8 @@ func (c *Client) Place(ctx context.Context, model, witness string, readings []Re
 
 // PlaceWith is Place with the optional parts chosen by opt.
 func (c *Client) PlaceWith(ctx context.Context, model, witness string, readings []Reading, opt PlaceOptions) (*Placement, error) {
-	resp, err := c.places.Place(ctx, &pb.PlaceRequest{Model: model, Witness: witness, Readings: readingsProto(readings),
-		Nearest: int32(min(opt.Nearest, math.MaxInt32)), BySection: opt.BySection})
+	resp := new(pb.PlaceResponse)
+	err := c.conn.Invoke(ctx, pb.PlacementService_Place_FullMethodName, placeInput(model, witness, readings, opt), resp)
 	if err != nil {
 		return nil, c.wrap("place "+witness, err)
 	}
@@ -207,12 +222,11 @@ func (c *Client) PlaceAllWith(ctx context.Context, model string, witnesses []Wit
 	sendErr := make(chan error, 1)
 	go func() {
 		for i, w := range witnesses {
-			req := &pb.PlaceStreamRequest{Witness: w.Siglum, Readings: readingsProto(w.Readings),
-				Nearest: int32(min(opt.Nearest, math.MaxInt32)), BySection: opt.BySection}
+			ref := ""
 			if i == 0 {
-				req.Model = model
+				ref = model
 			}
-			if err := stream.Send(req); err != nil {
+			if err := stream.SendMsg(placeInput(ref, w.Siglum, w.Readings, opt)); err != nil {
 				// The receiving side sees the stream's real error.
 				sendErr <- nil
 				return

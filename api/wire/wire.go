@@ -8,7 +8,7 @@
 // The server decodes a placement request into an Input rather than a protobuf message: the
 // readings land in one reusable slice of model.Reading, and every string of the request points
 // into a single copy of its bytes, so decoding a witness of any size allocates that copy and
-// nothing per reading. Anything the fast decoder does not expect (an unknown wire type for a
+// nothing per reading. Clients send an Input the same way, encoded into a pooled buffer. Anything the fast decoder does not expect (an unknown wire type for a
 // known field, invalid UTF-8, a truncated message) is handed to the standard decoder, so errors
 // and edge cases stay exactly protobuf's.
 package wire
@@ -17,6 +17,7 @@ import (
 	"encoding/binary"
 	"errors"
 	"slices"
+	"sync"
 	"unicode/utf8"
 	"unsafe"
 
@@ -41,17 +42,39 @@ type codec struct{ std encoding.CodecV2 }
 func (codec) Name() string { return Name }
 
 func (c codec) Marshal(v any) (mem.BufferSlice, error) {
-	var r Request
 	switch m := v.(type) {
+	case *Input:
+		return encode(m), nil
 	case *pb.PlaceRequest:
-		r = Request{Model: m.GetModel(), Witness: m.GetWitness(), Readings: m.GetReadings(), Nearest: m.GetNearest(), BySection: m.GetBySection()}
+		return encodeProto(m.GetModel(), m.GetWitness(), m.GetReadings(), m.GetNearest(), m.GetBySection()), nil
 	case *pb.PlaceStreamRequest:
-		r = Request{Model: m.GetModel(), Witness: m.GetWitness(), Readings: m.GetReadings(), Nearest: m.GetNearest(), BySection: m.GetBySection()}
-	default:
-		return c.std.Marshal(v)
+		return encodeProto(m.GetModel(), m.GetWitness(), m.GetReadings(), m.GetNearest(), m.GetBySection()), nil
 	}
-	b := make([]byte, 0, RequestSize(&r))
-	return mem.BufferSlice{mem.SliceBuffer(AppendRequest(b, &r))}, nil
+	return c.std.Marshal(v)
+}
+
+// encode writes in into a buffer of gRPC's pool (gRPC frees it once the message is sent).
+func encode(in *Input) mem.BufferSlice {
+	pool := mem.DefaultBufferPool()
+	buf := pool.Get(in.Size())
+	*buf = in.AppendTo((*buf)[:0])
+	return mem.BufferSlice{mem.NewBuffer(buf, pool)}
+}
+
+// staging recycles the Inputs that protobuf placement requests are encoded through.
+var staging = sync.Pool{New: func() any { return new(Input) }}
+
+// encodeProto encodes the fields of a protobuf placement request by way of an Input.
+func encodeProto(ref, witness string, readings []*pb.WitnessReading, nearest int32, bySection bool) mem.BufferSlice {
+	in := staging.Get().(*Input)
+	in.Model, in.Witness, in.Nearest, in.BySection = ref, witness, nearest, bySection
+	for _, r := range readings {
+		in.Readings = append(in.Readings, model.Reading{Unit: r.GetUnit(), Reading: r.GetReading()})
+	}
+	data := encode(in)
+	in.Reset()
+	staging.Put(in)
+	return data
 }
 
 func (c codec) Unmarshal(data mem.BufferSlice, v any) error {
@@ -76,10 +99,12 @@ func (c codec) Unmarshal(data mem.BufferSlice, v any) error {
 	return c.std.Unmarshal(data, v)
 }
 
-// Input is a placement request as the server places it: the fields PlaceRequest and
+// Input is a placement request without protobuf messages: the fields PlaceRequest and
 // PlaceStreamRequest share (same names, same numbers), with the readings as model readings. The
-// codec decodes either message into an Input; the strings point into one copy of the message's
-// bytes, and Readings keeps its capacity across decodes, so an Input is worth reusing.
+// codec decodes either message into an Input, whose strings then point into one copy of the
+// message's bytes, and encodes an Input as either message (the bytes are the same), so servers
+// and clients can skip a protobuf message per reading. Readings keeps its capacity across
+// decodes and Reset, so an Input is worth reusing.
 type Input struct {
 	Model, Witness string
 	Readings       []model.Reading
@@ -128,15 +153,6 @@ func (in *Input) readingsProto() []*pb.WitnessReading {
 	return ptrs
 }
 
-// Request is what AppendRequest encodes: the content of a PlaceRequest or a PlaceStreamRequest,
-// which have the same fields under the same numbers.
-type Request struct {
-	Model, Witness string
-	Readings       []*pb.WitnessReading
-	Nearest        int32
-	BySection      bool
-}
-
 // Field numbers shared by PlaceRequest and PlaceStreamRequest (model 1, witness 2, readings 3,
 // nearest 4, by_section 5) and WitnessReading (unit 1, reading 2).
 const (
@@ -156,18 +172,18 @@ const (
 	readingTag  = byte(fieldReading<<3) | byte(protowire.BytesType)
 )
 
-// RequestSize is the length of the encoding AppendRequest writes.
-func RequestSize(r *Request) int {
-	n := stringSize(r.Model) + stringSize(r.Witness)
-	for _, rd := range r.Readings {
-		inner := stringSize(rd.GetUnit()) + stringSize(rd.GetReading())
+// Size is the length of the encoding AppendTo writes.
+func (in *Input) Size() int {
+	n := stringSize(in.Model) + stringSize(in.Witness)
+	for _, rd := range in.Readings {
+		inner := stringSize(rd.Unit) + stringSize(rd.Reading)
 		n += 1 + protowire.SizeBytes(inner)
 	}
-	if r.Nearest != 0 {
+	if in.Nearest != 0 {
 		// An int32 is written as its 64-bit sign extension, as protobuf does.
-		n += 1 + protowire.SizeVarint(uint64(int64(r.Nearest)))
+		n += 1 + protowire.SizeVarint(uint64(int64(in.Nearest)))
 	}
-	if r.BySection {
+	if in.BySection {
 		n += 2
 	}
 	return n
@@ -180,28 +196,27 @@ func stringSize(s string) int {
 	return 1 + protowire.SizeBytes(len(s))
 }
 
-// AppendRequest appends the protobuf encoding of a placement request to b, as protobuf-go
-// writes it (fields in number order, zero values left out).
-func AppendRequest(b []byte, req *Request) []byte {
-	b = appendString(b, fieldModel, req.Model)
-	b = appendString(b, fieldWitness, req.Witness)
-	for _, r := range req.Readings {
-		unit, reading := r.GetUnit(), r.GetReading()
-		n := stringSize(unit) + stringSize(reading)
+// AppendTo appends the protobuf encoding of in, as a PlaceRequest or PlaceStreamRequest, to b,
+// as protobuf-go writes it (fields in number order, zero values left out).
+func (in *Input) AppendTo(b []byte) []byte {
+	b = appendString(b, fieldModel, in.Model)
+	b = appendString(b, fieldWitness, in.Witness)
+	for _, r := range in.Readings {
+		n := stringSize(r.Unit) + stringSize(r.Reading)
 		if n < 0x80 {
-			b = append(b, byte(fieldReadings)<<3|byte(protowire.BytesType), byte(n))
+			b = append(b, readingsTag, byte(n))
 		} else {
 			b = protowire.AppendTag(b, fieldReadings, protowire.BytesType)
 			b = protowire.AppendVarint(b, uint64(n))
 		}
-		b = appendString(b, fieldUnit, unit)
-		b = appendString(b, fieldReading, reading)
+		b = appendString(b, fieldUnit, r.Unit)
+		b = appendString(b, fieldReading, r.Reading)
 	}
-	if req.Nearest != 0 {
+	if in.Nearest != 0 {
 		b = protowire.AppendTag(b, fieldNearest, protowire.VarintType)
-		b = protowire.AppendVarint(b, uint64(int64(req.Nearest)))
+		b = protowire.AppendVarint(b, uint64(int64(in.Nearest)))
 	}
-	if req.BySection {
+	if in.BySection {
 		b = protowire.AppendTag(b, fieldBySection, protowire.VarintType)
 		b = protowire.AppendVarint(b, 1)
 	}

@@ -28,7 +28,7 @@ func sample(n int) *pb.PlaceRequest {
 
 // The encoder writes exactly what protobuf-go writes (deterministic marshal), which the
 // standard decoder reads back as the same message.
-func TestAppendRequestMatchesProtobuf(t *testing.T) {
+func TestEncodeMatchesProtobuf(t *testing.T) {
 	asked := sample(3)
 	asked.Nearest, asked.BySection = 5, true
 	long := sample(2) // lengths past one varint byte, non-ASCII readings
@@ -41,13 +41,28 @@ func TestAppendRequestMatchesProtobuf(t *testing.T) {
 		if err != nil {
 			t.Fatal(err)
 		}
-		r := &Request{Model: m.GetModel(), Witness: m.GetWitness(), Readings: m.GetReadings(), Nearest: m.GetNearest(), BySection: m.GetBySection()}
-		got := AppendRequest(nil, r)
-		if n := RequestSize(r); n != len(want) {
-			t.Errorf("RequestSize = %d; the encoding has %d bytes", n, len(want))
+		in := &Input{Model: m.GetModel(), Witness: m.GetWitness(), Nearest: m.GetNearest(), BySection: m.GetBySection()}
+		for _, r := range m.GetReadings() {
+			in.Readings = append(in.Readings, model.Reading{Unit: r.GetUnit(), Reading: r.GetReading()})
+		}
+		got := in.AppendTo(nil)
+		if n := in.Size(); n != len(want) {
+			t.Errorf("Size = %d; the encoding has %d bytes", n, len(want))
 		}
 		if !bytes.Equal(got, want) {
-			t.Fatalf("AppendRequest differs from proto.Marshal for %v:\n got %x\nwant %x", m, got, want)
+			t.Fatalf("AppendTo differs from proto.Marshal for %v:\n got %x\nwant %x", m, got, want)
+		}
+		// The codec writes the same bytes for the Input and for both protobuf messages.
+		stream := &pb.PlaceStreamRequest{Model: m.GetModel(), Witness: m.GetWitness(), Readings: m.GetReadings(), Nearest: m.GetNearest(), BySection: m.GetBySection()}
+		for _, v := range []any{in, m, stream} {
+			data, err := Codec().Marshal(v)
+			if err != nil {
+				t.Fatal(err)
+			}
+			if b := data.Materialize(); !bytes.Equal(b, want) {
+				t.Fatalf("Marshal(%T) differs from proto.Marshal for %v:\n got %x\nwant %x", v, m, b, want)
+			}
+			data.Free()
 		}
 	}
 }
@@ -194,9 +209,21 @@ func BenchmarkDecodeInput400(b *testing.B) {
 
 func BenchmarkEncode400(b *testing.B) {
 	m := sample(400)
-	buf := make([]byte, 0, 8192)
-	b.ReportAllocs()
-	for b.Loop() {
-		buf = AppendRequest(buf[:0], &Request{Model: m.Model, Witness: m.Witness, Readings: m.Readings})
+	in := &Input{Model: m.Model, Witness: m.Witness}
+	for _, r := range m.Readings {
+		in.Readings = append(in.Readings, model.Reading{Unit: r.Unit, Reading: r.Reading})
 	}
+	b.ReportAllocs()
+	b.Run("Input", func(b *testing.B) {
+		for b.Loop() {
+			data, _ := Codec().Marshal(in)
+			data.Free()
+		}
+	})
+	b.Run("PlaceRequest", func(b *testing.B) {
+		for b.Loop() {
+			data, _ := Codec().Marshal(m)
+			data.Free()
+		}
+	})
 }
