@@ -182,10 +182,7 @@ func addSections(out *pb.Placement, sp *model.SectionedPlacement) {
 func (s *Server) Place(ctx context.Context, req *pb.PlaceRequest) (*pb.PlaceResponse, error) {
 	in := getInput()
 	defer putInput(in)
-	in.Model, in.Witness, in.Nearest, in.BySection = req.GetModel(), req.GetWitness(), req.GetNearest(), req.GetBySection()
-	for _, r := range req.GetReadings() {
-		in.Readings = append(in.Readings, model.Reading{Unit: r.GetUnit(), Reading: r.GetReading()})
-	}
+	in.FromRequest(req)
 	return s.place(ctx, in)
 }
 

@@ -67,10 +67,7 @@ var staging = sync.Pool{New: func() any { return new(Input) }}
 // encodeProto encodes the fields of a protobuf placement request by way of an Input.
 func encodeProto(ref, witness string, readings []*pb.WitnessReading, nearest int32, bySection bool) mem.BufferSlice {
 	in := staging.Get().(*Input)
-	in.Model, in.Witness, in.Nearest, in.BySection = ref, witness, nearest, bySection
-	for _, r := range readings {
-		in.Readings = append(in.Readings, model.Reading{Unit: r.GetUnit(), Reading: r.GetReading()})
-	}
+	in.fill(ref, witness, readings, nearest, bySection)
 	data := encode(in)
 	in.Reset()
 	staging.Put(in)
@@ -127,16 +124,27 @@ func (in *Input) decode(data mem.BufferSlice) error {
 	if decodeInput(buf, in) == nil {
 		return nil
 	}
-	in.Reset()
 	var m pb.PlaceRequest
 	if err := proto.Unmarshal(buf, &m); err != nil {
+		in.Reset()
 		return err
 	}
-	in.Model, in.Witness, in.Nearest, in.BySection = m.GetModel(), m.GetWitness(), m.GetNearest(), m.GetBySection()
-	for _, r := range m.GetReadings() {
+	in.FromRequest(&m)
+	return nil
+}
+
+// FromRequest sets in to the content of a protobuf PlaceRequest.
+func (in *Input) FromRequest(m *pb.PlaceRequest) {
+	in.fill(m.GetModel(), m.GetWitness(), m.GetReadings(), m.GetNearest(), m.GetBySection())
+}
+
+// fill sets in, reset first, to the fields of a protobuf placement request.
+func (in *Input) fill(ref, witness string, readings []*pb.WitnessReading, nearest int32, bySection bool) {
+	in.Reset()
+	in.Model, in.Witness, in.Nearest, in.BySection = ref, witness, nearest, bySection
+	for _, r := range readings {
 		in.Readings = append(in.Readings, model.Reading{Unit: r.GetUnit(), Reading: r.GetReading()})
 	}
-	return nil
 }
 
 // readingsProto returns the readings as protobuf messages, allocated in one block.
