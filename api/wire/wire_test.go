@@ -9,6 +9,7 @@ import (
 	"google.golang.org/grpc/mem"
 	"google.golang.org/protobuf/encoding/protowire"
 	"google.golang.org/protobuf/proto"
+	"google.golang.org/protobuf/reflect/protoreflect"
 
 	"strayleaf/placement/model"
 	pb "strayleaf/proto/strayleaf/v1"
@@ -226,4 +227,39 @@ func BenchmarkEncode400(b *testing.B) {
 			data.Free()
 		}
 	})
+}
+
+// The codec knows the fields of the placement requests by number: a field added to either
+// message, or one that changes, must be taught to it (this test then fails until it is).
+func TestRequestMessagesHaveTheKnownFields(t *testing.T) {
+	want := map[protowire.Number]string{
+		fieldModel: "model string", fieldWitness: "witness string", fieldReadings: "readings repeated message",
+		fieldNearest: "nearest int32", fieldBySection: "by_section bool",
+	}
+	describe := func(fd protoreflect.FieldDescriptor) string {
+		if fd == nil {
+			return "missing"
+		}
+		d := string(fd.Name())
+		if fd.Cardinality() == protoreflect.Repeated {
+			d += " repeated"
+		}
+		return d + " " + fd.Kind().String()
+	}
+	for _, m := range []proto.Message{&pb.PlaceRequest{}, &pb.PlaceStreamRequest{}} {
+		fields := m.ProtoReflect().Descriptor().Fields()
+		if fields.Len() != len(want) {
+			t.Errorf("%T has %d fields; the codec knows %d", m, fields.Len(), len(want))
+		}
+		for i := range fields.Len() {
+			fd := fields.Get(i)
+			if got := describe(fd); got != want[fd.Number()] {
+				t.Errorf("%T field %d is %q; the codec expects %q", m, fd.Number(), got, want[fd.Number()])
+			}
+		}
+	}
+	rd := (&pb.WitnessReading{}).ProtoReflect().Descriptor().Fields()
+	if rd.Len() != 2 || describe(rd.ByNumber(fieldUnit)) != "unit string" || describe(rd.ByNumber(fieldReading)) != "reading string" {
+		t.Errorf("WitnessReading's fields are not (1 unit string, 2 reading string)")
+	}
 }
