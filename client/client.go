@@ -61,7 +61,8 @@ func WithCAFile(path string) Option { return func(c *config) { c.caFile = path }
 // WithMaxMessageBytes bounds messages sent and received (default DefaultMaxMessageBytes).
 func WithMaxMessageBytes(n int) Option { return func(c *config) { c.maxBytes = n } }
 
-// WithDialOptions adds gRPC dial options.
+// WithDialOptions adds gRPC dial options. Leave the codec alone: the client sends placement
+// requests as wire.Input values, which only the codec of package wire encodes.
 func WithDialOptions(opts ...grpc.DialOption) Option {
 	return func(c *config) { c.dialOpts = append(c.dialOpts, opts...) }
 }
