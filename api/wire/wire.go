@@ -5,12 +5,14 @@
 // the wire are exactly protobuf's: a peer using any other protobuf library reads and writes them
 // alike.
 //
-// The server decodes a placement request into an Input rather than a protobuf message: the
-// readings land in one reusable slice of model.Reading, and every string of the request points
-// into a single copy of its bytes, so decoding a witness of any size allocates that copy and
-// nothing per reading. Clients send an Input the same way, encoded into a pooled buffer. Anything the fast decoder does not expect (an unknown wire type for a
-// known field, invalid UTF-8, a truncated message) is handed to the standard decoder, so errors
-// and edge cases stay exactly protobuf's.
+// Both go through an Input instead of a protobuf message. The server decodes a placement
+// request into one: the readings land in one reusable slice of model.Reading, and every string
+// of the request points into a single copy of its bytes, so decoding a witness of any size
+// allocates that copy and nothing per reading. Clients send an Input the same way, encoded into
+// a pooled buffer; a protobuf request message is encoded by way of one. Anything the fast
+// decoder does not expect (an unknown wire type for a known field, invalid UTF-8, a truncated
+// message) is handed to the standard decoder, so errors and edge cases stay exactly
+// protobuf's. Decoding into the protobuf messages themselves is left to the standard codec.
 package wire
 
 import (
@@ -75,23 +77,8 @@ func encodeProto(ref, witness string, readings []*pb.WitnessReading, nearest int
 }
 
 func (c codec) Unmarshal(data mem.BufferSlice, v any) error {
-	switch m := v.(type) {
-	case *Input:
-		return m.decode(data)
-	case *pb.PlaceRequest:
-		var in Input
-		if err := in.decode(data); err != nil {
-			return err
-		}
-		m.Model, m.Witness, m.Readings, m.Nearest, m.BySection = in.Model, in.Witness, in.readingsProto(), in.Nearest, in.BySection
-		return nil
-	case *pb.PlaceStreamRequest:
-		var in Input
-		if err := in.decode(data); err != nil {
-			return err
-		}
-		m.Model, m.Witness, m.Readings, m.Nearest, m.BySection = in.Model, in.Witness, in.readingsProto(), in.Nearest, in.BySection
-		return nil
+	if in, ok := v.(*Input); ok {
+		return in.decode(data)
 	}
 	return c.std.Unmarshal(data, v)
 }
@@ -145,20 +132,6 @@ func (in *Input) fill(ref, witness string, readings []*pb.WitnessReading, neares
 	for _, r := range readings {
 		in.Readings = append(in.Readings, model.Reading{Unit: r.GetUnit(), Reading: r.GetReading()})
 	}
-}
-
-// readingsProto returns the readings as protobuf messages, allocated in one block.
-func (in *Input) readingsProto() []*pb.WitnessReading {
-	if len(in.Readings) == 0 {
-		return nil
-	}
-	backing := make([]pb.WitnessReading, len(in.Readings))
-	ptrs := make([]*pb.WitnessReading, len(in.Readings))
-	for i, r := range in.Readings {
-		backing[i].Unit, backing[i].Reading = r.Unit, r.Reading
-		ptrs[i] = &backing[i]
-	}
-	return ptrs
 }
 
 // Field numbers shared by PlaceRequest and PlaceStreamRequest (model 1, witness 2, readings 3,
