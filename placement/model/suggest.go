@@ -113,23 +113,14 @@ func (m *Model) Suggest(witness string, readings []Reading, opt SuggestOptions) 
 		opt.MinHint = 0.05
 	}
 	g := m.guide()
-	k := g.k
-	checked := make([]bool, len(m.pb.Units))
-	q := make([]float64, k)
-	copy(q, g.logPrior)
-	if len(readings) > 0 {
-		obs, _, err := m.Observe(witness, readings, nil)
-		if err != nil {
-			return nil, err
-		}
-		for _, o := range obs {
-			g.logLik(q, o.Unit, o.Row, m)
-		}
-		for _, r := range readings {
-			checked[m.unitIndex[r.Unit]] = true
-		}
+	q, err := m.posterior(witness, readings)
+	if err != nil {
+		return nil, err
 	}
-	normaliseLog(q)
+	checked := make([]bool, len(m.pb.Units))
+	for _, r := range readings {
+		checked[m.unitIndex[r.Unit]] = true
+	}
 	var allowed []bool // nil: every unit may be suggested
 	if opt.Candidates != nil {
 		allowed = make([]bool, len(m.pb.Units))
@@ -444,10 +435,9 @@ func hashString(s string) uint64 {
 	return h
 }
 
-// GroupPosterior returns q, the distribution over the groups given the readings (see the notes
-// on what to check next), most probable first. Readings are checked as for Place; none gives
-// the prior.
-func (m *Model) GroupPosterior(witness string, readings []Reading) ([]GroupShare, error) {
+// posterior returns q, the distribution over the groups (in group order) given the readings,
+// checked as for Place: the prior times each reading's likelihood, normalised.
+func (m *Model) posterior(witness string, readings []Reading) ([]float64, error) {
 	g := m.guide()
 	q := append([]float64(nil), g.logPrior...)
 	if len(readings) > 0 {
@@ -460,6 +450,17 @@ func (m *Model) GroupPosterior(witness string, readings []Reading) ([]GroupShare
 		}
 	}
 	normaliseLog(q)
+	return q, nil
+}
+
+// GroupPosterior returns q, the distribution over the groups given the readings (see the notes
+// on what to check next), most probable first. Readings are checked as for Place; none gives
+// the prior.
+func (m *Model) GroupPosterior(witness string, readings []Reading) ([]GroupShare, error) {
+	q, err := m.posterior(witness, readings)
+	if err != nil {
+		return nil, err
+	}
 	out := make([]GroupShare, len(q))
 	for j, v := range q {
 		out[j] = GroupShare{Group: m.groupIDs[j], Share: v}
