@@ -5,7 +5,6 @@ import (
 	"math/rand/v2"
 	"testing"
 
-	"strayleaf/placement/collation"
 	"strayleaf/placement/simulate"
 )
 
@@ -39,12 +38,7 @@ func BenchmarkSuggest(b *testing.B) {
 	c := tr.Collation
 	rng := rand.New(rand.NewPCG(1, 2))
 	frag := simulate.CutScattered(c.Row(0), 15, rng)
-	var rd []Reading
-	for u, r := range frag {
-		if r != collation.Lacuna {
-			rd = append(rd, Reading{Unit: c.Unit(u).ID, Reading: c.Unit(u).Readings[r]})
-		}
-	}
+	rd := rowReadings(c, frag)
 	b.ReportMetric(float64(len(m.Proto().Rows)), "rows")
 	m.guide() // derived data is built once per model, not per call
 	b.ResetTimer()
@@ -62,12 +56,7 @@ func BenchmarkPlaceFragment(b *testing.B) {
 	c := tr.Collation
 	rng := rand.New(rand.NewPCG(1, 2))
 	frag := simulate.CutScattered(c.Row(0), 15, rng)
-	var rd []Reading
-	for u, r := range frag {
-		if r != collation.Lacuna {
-			rd = append(rd, Reading{Unit: c.Unit(u).ID, Reading: c.Unit(u).Readings[r]})
-		}
-	}
+	rd := rowReadings(c, frag)
 	ws := m.Engine().NewWorkspace()
 	m.guide()
 	b.ResetTimer()
@@ -87,12 +76,7 @@ func BenchmarkPlace400(b *testing.B) {
 	c := tr.Collation
 	rng := rand.New(rand.NewPCG(4, 5))
 	frag := simulate.CutScattered(c.Row(3), 400, rng)
-	var rd []Reading
-	for u, r := range frag {
-		if r != collation.Lacuna {
-			rd = append(rd, Reading{Unit: c.Unit(u).ID, Reading: c.Unit(u).Readings[r]})
-		}
-	}
+	rd := rowReadings(c, frag)
 	if len(rd) != 400 {
 		b.Fatalf("witness has %d readings; expected 400", len(rd))
 	}
